@@ -1,0 +1,27 @@
+"""genfield: learn a generative feature field over objects on a CPU, and render labelled
+synthetic datasets from declarative scene recipes.
+
+Everything the command line does is one call away; the names below are imported lazily so
+that ``import genfield`` stays cheap (no torch until a model is used).
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+__version__ = "0.1.0"
+
+# public name -> module that defines it
+_PUBLIC: dict[str, str] = {
+    "GenfieldError": "genfield.errors",
+    "Scene": "genfield.scene",
+}
+
+__all__ = ["__version__", *_PUBLIC]
+
+
+def __getattr__(name: str) -> Any:
+    if name in _PUBLIC:
+        return getattr(importlib.import_module(_PUBLIC[name]), name)
+    raise AttributeError(f"module 'genfield' has no attribute {name!r}")

@@ -1,0 +1,5 @@
+"""``python -m genfield``: the same as the ``genfield`` command."""
+
+from genfield.cli import run
+
+run()

@@ -1,0 +1,1 @@
+"""Training sources: procedural part families, imported meshes, ground-truth point samples."""

@@ -1,0 +1,1 @@
+"""Dataset folders: writer, annotation formats, factors, manifest, resume, shards, reader."""

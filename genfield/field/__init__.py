@@ -1,0 +1,1 @@
+"""The generative feature field: network, training, prior over codes, fitting, model file."""

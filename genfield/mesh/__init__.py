@@ -1,0 +1,1 @@
+"""Meshes of any variant: coarse-to-fine isosurface extraction, colours, export."""

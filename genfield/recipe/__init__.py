@@ -1,0 +1,1 @@
+"""The scene language: parse recipes, check them, and draw concrete scenes for (seed, i)."""

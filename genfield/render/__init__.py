@@ -1,0 +1,1 @@
+"""The compositional volume renderer: cameras, poses, composition, shading, exact labels."""
