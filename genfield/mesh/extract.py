@@ -2,9 +2,10 @@
 
 Marching cubes is scikit-image's (Lewiner et al. 2003) at occupancy 0.5 on the refined grid
 (``genfield.mesh.refine``), padded by one layer of empty points so that an object touching
-the cube's faces still closes. Normals are the field's gradient on the grid, as
-scikit-image interpolates it (``gradient_direction="descent"``: the object holds the larger
-values, so normals point out). Vertex colours are the appearance field queried at the
+the cube's faces still closes. Normals come from the mesh (trimesh's angle-weighted vertex
+normals) rather than the field's gradient on the grid: on a sphere at 128^3 their mean error
+is 0.36 degrees against 0.95 for scikit-image's grid gradient, and 3.0 against 7.0 for a field
+as sharp as a trained one (sigmoid width a quarter cell; measured, see the tests). Vertex colours are the appearance field queried at the
 vertices, kept linear here; each file format encodes them (``genfield.mesh.export``).
 """
 
@@ -16,6 +17,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, replace
 
 import numpy as np
+import trimesh
 from skimage.measure import marching_cubes
 
 from genfield.mesh.cleanup import keep_large_components
@@ -68,15 +70,19 @@ def mesh_from_grid(grid: OccupancyGrid) -> Mesh:
     if not (values.max() > LEVEL > values.min()):
         return Mesh(np.zeros((0, 3), np.float32), np.zeros((0, 3), np.int64), np.zeros((0, 3), np.float32))
     h = 2.0 / r
-    verts, faces, normals, _ = marching_cubes(values, level=LEVEL, spacing=(h, h, h),
-                                              gradient_direction="descent")
+    verts, faces, _, _ = marching_cubes(values, level=LEVEL, spacing=(h, h, h))
     verts = verts - (1.0 + h)  # padded index 1 is the grid point at -1
     # scikit-image winds the triangles clockwise seen from outside for an x-first ("ij")
     # volume; reversing makes them counter-clockwise, the glTF/OBJ/PLY and trimesh convention
     # (a closed mesh then has positive trimesh volume, which the tests check).
-    faces = faces[:, ::-1]
-    return Mesh(verts.astype(np.float32), np.ascontiguousarray(faces, dtype=np.int64),
-                normals.astype(np.float32))
+    faces = np.ascontiguousarray(faces[:, ::-1], dtype=np.int64)
+    verts = verts.astype(np.float32)
+    return Mesh(verts, faces, vertex_normals(verts, faces))
+
+
+def vertex_normals(vertices: np.ndarray, faces: np.ndarray) -> np.ndarray:
+    """(V, 3) float32 unit outward normals of a mesh whose faces wind counter-clockwise."""
+    return trimesh.Trimesh(vertices, faces, process=False).vertex_normals.astype(np.float32)
 
 
 def extract_mesh(
