@@ -26,6 +26,16 @@ def torus_sdf(p: np.ndarray, big: float = 0.55, small: float = 0.25) -> np.ndarr
     return np.hypot(q, p[:, 2]) - small
 
 
+def cup_sdf(p: np.ndarray) -> np.ndarray:
+    # a thin-walled open cup (wall 0.08, 5 cells at 128^3) with a thin ring handle (r 0.06):
+    # CSG by min/max of distance bounds (union = min, subtraction = max(a, -b))
+    r = np.hypot(p[:, 0], p[:, 1])
+    outer = np.maximum(r - 0.6, np.abs(p[:, 2]) - 0.7)
+    cavity = np.maximum(r - 0.52, -(p[:, 2] + 0.62))
+    handle = np.hypot(np.hypot(p[:, 0] - 0.72, p[:, 2]) - 0.3, p[:, 1]) - 0.06
+    return np.minimum(np.maximum(outer, -cavity), handle)
+
+
 def occupancy(sdf):
     return lambda p: occupancy_from_sdf(sdf(p), WIDTH)
 
@@ -59,10 +69,10 @@ def test_normals_point_out_along_the_true_normal(width, mean_degrees):
     assert np.degrees(np.arccos(cosine)).mean() < mean_degrees
 
 
-@pytest.mark.parametrize("sdf", [sphere_sdf, torus_sdf])
-def test_coarse_to_fine_equals_dense_on_a_fraction_of_points(sdf):
+@pytest.mark.parametrize("sdf, coarse", [(sphere_sdf, 16), (torus_sdf, 32), (cup_sdf, 16)])
+def test_coarse_to_fine_equals_dense_on_a_fraction_of_points(sdf, coarse):
     fn = occupancy(sdf)
-    refined = refine_occupancy(fn, RES, coarse=16)
+    refined = refine_occupancy(fn, RES, coarse=coarse)
     dense = dense_occupancy(fn, RES)
     a, b = refined.inside, dense.inside
     iou = (a & b).sum() / (a | b).sum()
@@ -97,7 +107,8 @@ def test_a_part_the_coarse_grid_hits_is_found_one_between_its_points_is_not():
     fn = occupancy(sdf)
     dense = dense_occupancy(fn, RES).inside
     missed = refine_occupancy(fn, RES, coarse=16).inside
-    found = refine_occupancy(fn, RES, coarse=64).inside  # spacing 1/32: the small sphere is hit
+    # spacing 1/32: r = 0.05 > sqrt(3)/2 * 1/32 = 0.027, so the ball must hold a grid point
+    found = refine_occupancy(fn, RES, coarse=64).inside
     assert np.array_equal(found, dense)
     assert (dense & ~missed).sum() > 0.9 * (4 / 3 * math.pi * 0.05**3) / (2 / RES) ** 3
 

@@ -90,7 +90,7 @@ def extract_mesh(
     colour_fn: ColourFn | None = None,
     *,
     resolution: int = 128,
-    coarse: int = 16,
+    coarse: int = 32,
     min_component_fraction: float = 0.0,
     chunk: int = CHUNK,
     progress: bool = False,

@@ -2,20 +2,26 @@
 
 This is the multiresolution isosurface extraction of Occupancy Networks (Mescheder et al.,
 CVPR 2019, section 3.3, "MISE"): evaluate the field on a coarse grid, mark the cells whose
-corners disagree about inside/outside (occupancy above or below 0.5) together with their
-neighbours, subdivide only those cells, and repeat until the target resolution. Points never
-evaluated take the trilinear interpolation of the coarser level, which lies on the same side
-of 0.5 as the corners it comes from, so marching cubes finds no surface there.
+corners disagree about inside/outside (occupancy above or below 0.5), subdivide only those
+cells, and repeat until the target resolution. Points never evaluated take the trilinear
+interpolation of the coarser level, which lies on the same side of 0.5 as the corners it
+comes from, so marching cubes finds no surface there.
 
-On top of the published method each level is *traced*: cells that show a sign change and
-touch unevaluated points get those points evaluated, until no such cell is left. A surface
-component that crosses one active cell is thereby followed across the whole level.
+Where MISE also subdivides every neighbour of a marked cell "to be safe", this module
+*traces* each level instead: a cell that shows a sign change and still has interpolated
+corners gets them evaluated, until no such cell is left. A neighbour is thereby refined
+exactly when the surface crosses into it through a shared face, and a surface component
+that crosses one marked cell is followed across the whole level. At 128^3 this evaluates
+half the points of neighbour subdivision (sphere 4.5% against 10.5% of the dense grid,
+a thin-walled cup 9.3% against 18.2%) with the same result, equal to the dense grid
+(measured; the tests pin it).
 
-When is the result exact? A final-level cell is evaluated at every corner if its ancestors
-were all active. A surface component that crosses an edge of the coarse grid is found there
-and traced from then on, so the refined grid equals the dense grid wherever a component is
-seen by the coarse grid; a component (or a thin feature) that falls entirely between the
-coarse grid's points is missed. Choose the coarse resolution finer than the smallest part.
+When is the result exact? Every final-level cell that shows a sign change has all eight
+corners evaluated, so its triangles are the dense grid's. A surface component is found when
+it crosses an edge of the coarse grid; in particular any part containing a ball of radius
+sqrt(3) / 2 times the coarse spacing holds a coarse grid point and is found. A component
+(or a detached thin part) that falls entirely between the coarse grid's points is missed:
+choose the coarse resolution finer than the thinnest separate part.
 
 Grid layout (as ``genfield/field/grid.py``): ``values[i, j, k]`` is the occupancy at
 ``(-1 + 2 i / R, -1 + 2 j / R, -1 + 2 k / R)``, ``indexing="ij"``, R cells, R + 1 points.
@@ -125,21 +131,6 @@ def sign_change_cells(inside: np.ndarray) -> np.ndarray:
     return _cells_reduce(inside, np.logical_or) & ~_cells_reduce(inside, np.logical_and)
 
 
-def dilate(cells: np.ndarray) -> np.ndarray:
-    """A cell mask grown by one cell in every direction (3x3x3 box), same shape."""
-    out = cells.copy()
-    for axis in range(3):
-        grown = out.copy()
-        lo = [slice(None)] * 3
-        hi = [slice(None)] * 3
-        lo[axis] = slice(0, -1)
-        hi[axis] = slice(1, None)
-        grown[tuple(hi)] |= out[tuple(lo)]
-        grown[tuple(lo)] |= out[tuple(hi)]
-        out = grown
-    return out
-
-
 def corners_of(cells: np.ndarray, children: bool) -> np.ndarray:
     """Point mask of the corners of marked cells: (n)^3 -> (n + 1)^3, or (2n + 1)^3 for the
     corners of their 8 children each when ``children``."""
@@ -159,7 +150,7 @@ def corners_of(cells: np.ndarray, children: bool) -> np.ndarray:
     return out
 
 
-def refine_occupancy(fn: OccupancyFn, resolution: int, coarse: int = 16, *, chunk: int = CHUNK,
+def refine_occupancy(fn: OccupancyFn, resolution: int, coarse: int = 32, *, chunk: int = CHUNK,
                      progress: bool = False) -> OccupancyGrid:
     """The occupancy grid of ``fn`` at ``resolution`` cells per axis, evaluated coarse to fine.
 
@@ -188,7 +179,7 @@ def refine_occupancy(fn: OccupancyFn, resolution: int, coarse: int = 16, *, chun
     count = values.size
     for level in range(levels + 1):
         if level > 0:
-            active = dilate(sign_change_cells(values > LEVEL))  # parents to subdivide (MISE)
+            active = sign_change_cells(values > LEVEL)  # parents to subdivide (MISE)
             values = _upsample(values)
             n *= 2
             grown = np.zeros_like(values, dtype=bool)
