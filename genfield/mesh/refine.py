@@ -7,14 +7,18 @@ cells, and repeat until the target resolution. Points never evaluated take the t
 interpolation of the coarser level, which lies on the same side of 0.5 as the corners it
 comes from, so marching cubes finds no surface there.
 
-Where MISE also subdivides every neighbour of a marked cell "to be safe", this module
-*traces* each level instead: a cell that shows a sign change and still has interpolated
-corners gets them evaluated, until no such cell is left. A neighbour is thereby refined
-exactly when the surface crosses into it through a shared face, and a surface component
-that crosses one marked cell is followed across the whole level. At 128^3 this evaluates
-half the points of neighbour subdivision (sphere 4.5% against 10.5% of the dense grid,
-a thin-walled cup 9.3% against 18.2%) with the same result, equal to the dense grid
-(measured; the tests pin it).
+Two changes to the published procedure, both measured to give the same grid with fewer
+field queries:
+- Subdivision is lazy. After upsampling, a level is *traced*: every cell that shows a sign
+  change (in evaluated or interpolated values) and still has interpolated corners gets them
+  evaluated, until no such cell is left. Inside a marked parent only the children the
+  surface passes through are evaluated, not all eight.
+- MISE also subdivides every neighbour of a marked cell "to be safe"; tracing refines a
+  neighbour exactly when the surface crosses into it through a shared face, and so follows
+  a surface component across the whole level once one cell of it is marked.
+At 128^3 from a 32^3 coarse grid this evaluates 8.0% of the dense grid's points on a
+thin-walled cup against 19.0% for MISE with neighbours (sphere: 4.5% against 11.4%; measured
+during development), both grids equal to the dense one; the tests pin the equality.
 
 When is the result exact? Every final-level cell that shows a sign change has all eight
 corners evaluated, so its triangles are the dense grid's. A surface component is found when
@@ -93,23 +97,24 @@ def evaluate(fn: OccupancyFn, points: np.ndarray, chunk: int = CHUNK,
     return out
 
 
+def _along(axis: int, part: slice) -> tuple[slice, ...]:
+    """The index taking ``part`` along ``axis`` of a 3-D array and everything else."""
+    index = [slice(None)] * 3
+    index[axis] = part
+    return tuple(index)
+
+
 def _upsample(values: np.ndarray) -> np.ndarray:
-    """Trilinear upsampling of an (n + 1)^3 point grid to (2n + 1)^3, exact at shared points."""
+    """Trilinear upsampling of an (n + 1)^3 point grid to (2n + 1)^3, exact at shared points:
+    linear along each axis in turn, new points the mean of their two neighbours."""
     for axis in range(3):
-        n = values.shape[axis]
         shape = list(values.shape)
-        shape[axis] = 2 * n - 1
+        shape[axis] = 2 * shape[axis] - 1
         out = np.empty(shape, dtype=values.dtype)
-        even = [slice(None)] * 3
-        odd = [slice(None)] * 3
-        even[axis] = slice(0, None, 2)
-        odd[axis] = slice(1, None, 2)
-        lo = [slice(None)] * 3
-        hi = [slice(None)] * 3
-        lo[axis] = slice(0, -1)
-        hi[axis] = slice(1, None)
-        out[tuple(even)] = values
-        out[tuple(odd)] = 0.5 * (values[tuple(lo)] + values[tuple(hi)])
+        out[_along(axis, slice(0, None, 2))] = values
+        mid = out[_along(axis, slice(1, None, 2))]
+        np.add(values[_along(axis, slice(0, -1))], values[_along(axis, slice(1, None))], out=mid)
+        mid *= 0.5
         values = out
     return values
 
@@ -118,11 +123,7 @@ def _cells_reduce(points: np.ndarray, op: Callable[[np.ndarray, np.ndarray], np.
     """(n + 1)^3 point mask to (n)^3 cell mask, combining each cell's 8 corners with ``op``."""
     out = points
     for axis in range(3):
-        lo = [slice(None)] * 3
-        hi = [slice(None)] * 3
-        lo[axis] = slice(0, -1)
-        hi[axis] = slice(1, None)
-        out = op(out[tuple(lo)], out[tuple(hi)])
+        out = op(out[_along(axis, slice(0, -1))], out[_along(axis, slice(1, None))])
     return out
 
 
@@ -131,21 +132,13 @@ def sign_change_cells(inside: np.ndarray) -> np.ndarray:
     return _cells_reduce(inside, np.logical_or) & ~_cells_reduce(inside, np.logical_and)
 
 
-def corners_of(cells: np.ndarray, children: bool) -> np.ndarray:
-    """Point mask of the corners of marked cells: (n)^3 -> (n + 1)^3, or (2n + 1)^3 for the
-    corners of their 8 children each when ``children``."""
+def corners_of(cells: np.ndarray) -> np.ndarray:
+    """(n)^3 cell mask to the (n + 1)^3 point mask of the marked cells' corners."""
     out = cells
     for axis in range(3):
-        if children:
-            out = np.repeat(out, 2, axis=axis)  # child cell c has parent c // 2
-        m = out.shape[axis]
-        first = [slice(None)] * 3
-        last = [slice(None)] * 3
-        first[axis] = slice(0, 1)
-        last[axis] = slice(m - 1, m)
         # point p is a corner of cells p - 1 and p (where they exist)
-        before = np.concatenate([out[tuple(first)], out], axis=axis)
-        after = np.concatenate([out, out[tuple(last)]], axis=axis)
+        before = np.concatenate([out[_along(axis, slice(0, 1))], out], axis=axis)
+        after = np.concatenate([out, out[_along(axis, slice(-1, None))]], axis=axis)
         out = before | after
     return out
 
@@ -170,7 +163,7 @@ def refine_occupancy(fn: OccupancyFn, resolution: int, coarse: int = 32, *, chun
     if coarse << levels != resolution:
         raise ValueError(f"resolution {resolution} is not coarse {coarse} times a power of two")
 
-    bar = tqdm(total=(resolution + 1) ** 3, desc="field points", unit="pt", unit_scale=True,
+    bar = tqdm(desc="field points", unit="pt", unit_scale=True,
                file=sys.stderr, disable=not progress, leave=False)
     n = coarse
     index = np.indices((n + 1,) * 3).reshape(3, -1).T  # (P, 3) ij order
@@ -178,17 +171,15 @@ def refine_occupancy(fn: OccupancyFn, resolution: int, coarse: int = 32, *, chun
     evaluated = np.ones_like(values, dtype=bool)
     count = values.size
     for level in range(levels + 1):
-        if level > 0:
-            active = sign_change_cells(values > LEVEL)  # parents to subdivide (MISE)
+        if level > 0:  # subdivide: the marked cells' children start as interpolation
             values = _upsample(values)
             n *= 2
             grown = np.zeros_like(values, dtype=bool)
             grown[::2, ::2, ::2] = evaluated
             evaluated = grown
-            count += _fill(fn, values, evaluated, corners_of(active, children=True), n, chunk, bar)
-        while True:  # trace: follow the surface into cells with unevaluated corners
-            need = corners_of(sign_change_cells(values > LEVEL), children=False)
-            added = _fill(fn, values, evaluated, need, n, chunk, bar)
+        while True:  # trace: evaluate the corners of every cell the surface passes through
+            added = _fill(fn, values, evaluated, corners_of(sign_change_cells(values > LEVEL)),
+                          n, chunk, bar)
             if added == 0:
                 break
             count += added
@@ -201,12 +192,13 @@ def _fill(fn: OccupancyFn, values: np.ndarray, evaluated: np.ndarray, need: np.n
           chunk: int, bar: tqdm) -> int:
     """Evaluate ``fn`` where ``need & ~evaluated``, in place; returns how many points."""
     todo = need & ~evaluated
-    index = np.argwhere(todo)  # (P, 3)
-    if len(index) == 0:
+    flat = np.flatnonzero(todo)  # C order, as boolean indexing of ``values`` below
+    if len(flat) == 0:
         return 0
-    values[todo] = evaluate(fn, grid_coordinates(index, n), chunk, bar)  # argwhere is C order, as the mask
+    index = np.stack(np.unravel_index(flat, todo.shape), axis=1)  # (P, 3)
+    values[todo] = evaluate(fn, grid_coordinates(index, n), chunk, bar)
     evaluated |= todo
-    return len(index)
+    return len(flat)
 
 
 def dense_occupancy(fn: OccupancyFn, resolution: int, *, chunk: int = CHUNK,
