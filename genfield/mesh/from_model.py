@@ -1,0 +1,67 @@
+"""Meshes of a trained field: one code pair, or every object of a concrete scene, posed.
+
+The extractor takes plain callables; this module binds them to a model's per-sample queries
+(``Model.query_occupancy`` for the grid, ``Model.query`` for the colours at the vertices),
+so the mesh is the network's own surface, not a baked grid's.
+"""
+
+from __future__ import annotations
+
+import logging
+from typing import Protocol
+
+import numpy as np
+
+from genfield.mesh.export import ScenePart, floor_part
+from genfield.mesh.extract import ExtractionStats, Mesh, extract_mesh
+from genfield.scene import Scene
+
+log = logging.getLogger(__name__)
+
+
+class FieldModel(Protocol):
+    """What meshing needs of ``genfield.field.model.Model``."""
+
+    def query_occupancy(self, points: np.ndarray, shape: np.ndarray) -> np.ndarray: ...
+
+    def query(self, points: np.ndarray, shape: np.ndarray,
+              appearance: np.ndarray) -> tuple[np.ndarray, np.ndarray]: ...
+
+
+def variant_mesh(model: FieldModel, shape: np.ndarray, appearance: np.ndarray | None, *,
+                 resolution: int = 128, coarse: int = 32, min_part: float = 0.0,
+                 progress: bool = False) -> tuple[Mesh, ExtractionStats]:
+    """The mesh of one code pair in the object frame, coloured unless ``appearance`` is None.
+
+    shape: (Ds,) float32; appearance: (Da,) float32; min_part: drop pieces under this fraction
+    of the volume (0 keeps all).
+    """
+    def occupancy(points: np.ndarray) -> np.ndarray:
+        return model.query_occupancy(points, shape)
+
+    def colour(points: np.ndarray) -> np.ndarray:
+        return model.query(points, shape, appearance)[1]
+
+    return extract_mesh(occupancy, None if appearance is None else colour, resolution=resolution,
+                        coarse=coarse, min_component_fraction=min_part, progress=progress)
+
+
+def part_name(object_id: int, label: str) -> str:
+    """A scene node's name: the instance id and the class label, e.g. ``3-mug``."""
+    return f"{object_id}-{label}"
+
+
+def scene_parts(model: FieldModel, scene: Scene, *, resolution: int = 128, coarse: int = 32,
+                min_part: float = 0.0, floor: bool = False,
+                progress: bool = False) -> list[ScenePart]:
+    """One part per object of ``scene`` placed by its pose (``Pose.object_to_world``), and
+    the floor (z = 0, the backdrop's floor colour) under them when ``floor``."""
+    parts = []
+    for obj in scene.objects:
+        mesh, _ = variant_mesh(model, obj.shape.array, obj.appearance.array, resolution=resolution,
+                               coarse=coarse, min_part=min_part, progress=progress)
+        parts.append(ScenePart(part_name(obj.id, obj.label), mesh, obj.pose.object_to_world()))
+        log.info("object %s: %d faces", parts[-1].name, len(mesh.faces))
+    if floor:
+        parts.append(floor_part(parts, scene.backdrop.floor_srgb))
+    return parts
