@@ -16,6 +16,7 @@ __version__ = "0.1.0"
 _PUBLIC: dict[str, str] = {
     "GenfieldError": "genfield.errors",
     "Scene": "genfield.scene",
+    "SceneDataset": "genfield.dataset.reader",
 }
 
 __all__ = ["__version__", *_PUBLIC]

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import time
 from dataclasses import dataclass
 
@@ -26,8 +27,8 @@ CLASSES = ("ball", "bead")
 
 
 def spec(count: int = 6, seed: int = 3, *, size: int = 32, objects: int = 3, floor: bool = True,
-         delay: float = 0.0, outputs=("image", "mask", "depth", "normals")) -> JobSpec:
-    params = {"size": size, "objects": objects, "floor": floor, "delay": delay}
+         outputs=("image", "mask", "depth", "normals")) -> JobSpec:
+    params = {"size": size, "objects": objects, "floor": floor}
     return JobSpec(
         recipe_name="spheres.json", recipe_text=json.dumps(params, sort_keys=True),
         model_name="none.bin", model_bytes=b"analytic spheres", seed=seed, count=count,
@@ -115,10 +116,20 @@ class SpherePipeline:
         return draw(self.params, self.seed, index)
 
     def render(self, scene: Scene) -> RenderOutput:
-        if self.params["delay"]:
-            time.sleep(self.params["delay"])
+        time.sleep(float(os.environ.get("GENFIELD_TEST_DELAY", "0")))
         return trace(scene)
 
 
 def sphere_pipeline(job: JobSpec) -> SpherePipeline:
     return SpherePipeline(json.loads(job.recipe_text), job.seed)
+
+
+def tree(root) -> dict[str, str]:
+    """sha256 of every file under ``root``, by relative path: two datasets equal byte for byte
+    exactly when their trees are equal."""
+    import hashlib
+    from pathlib import Path
+
+    root = Path(root)
+    return {str(p.relative_to(root)): hashlib.sha256(p.read_bytes()).hexdigest()
+            for p in sorted(root.rglob("*")) if p.is_file()}

@@ -20,6 +20,7 @@ from genfield.errors import UsageError
 log = logging.getLogger(__name__)
 
 IN_FLIGHT_PER_WORKER = 2  # enough to keep a worker busy while the writer stores a result
+CONNECT_TIMEOUT = "20s"  # how long to wait for a Dask scheduler to answer
 
 
 def _single_thread() -> int:
@@ -63,9 +64,14 @@ def _worker_task(index: int) -> ImageResult:
 
 
 def _context() -> multiprocessing.context.BaseContext:
-    """forkserver where the platform has it, else spawn: never fork a process holding torch."""
-    methods = multiprocessing.get_all_start_methods()
-    return multiprocessing.get_context("forkserver" if "forkserver" in methods else "spawn")
+    """forkserver where the platform has it, else spawn: never fork a process holding torch's
+    threads. The fork server imports torch and this module once, so each worker starts in a
+    fraction of a second instead of importing them again."""
+    if "forkserver" not in multiprocessing.get_all_start_methods():
+        return multiprocessing.get_context("spawn")
+    context = multiprocessing.get_context("forkserver")
+    context.set_forkserver_preload(["torch", __name__])
+    return context
 
 
 def process_results(spec: JobSpec, indices: Iterable[int], workers: int) -> Iterator[ImageResult]:
@@ -105,7 +111,7 @@ def dask_results(spec: JobSpec, indices: Iterable[int], address: str) -> Iterato
         raise UsageError("--cluster needs Dask distributed, which is not installed",
                          hint="pip install 'genfield[cluster]'") from None
     try:
-        client = Client(address, timeout="20s")
+        client = Client(address, timeout=CONNECT_TIMEOUT)
     except (OSError, TimeoutError) as err:
         raise UsageError(f"cannot reach the Dask scheduler at {address!r}: {err}",
                          hint="check the address (e.g. tcp://host:8786) and that the scheduler runs") from None

@@ -62,6 +62,16 @@ def plan(spec: JobSpec, shard: tuple[int, int] | None) -> dict[str, Any]:
     }
 
 
+PLAN_KEYS = ("format", "format_version", "genfield_version", "recipe", "model", "seed", "count",
+             "splits", "split_rule", "outputs", "classes", "shard", "encoding")
+
+
+def head_of(manifest: dict[str, Any], shard: tuple[int, int] | None) -> dict[str, Any]:
+    """The plan part of a manifest, for the given shard (None: the whole dataset)."""
+    return {**{k: manifest[k] for k in PLAN_KEYS},
+            "shard": None if shard is None else {"index": shard[0], "of": shard[1]}}
+
+
 def write_manifest(root: Path, head: dict[str, Any], files: Iterable[tuple[str, str]]) -> None:
     """Write ``manifest.json`` atomically: ``head`` (sorted keys), then ``files`` as it streams."""
     with atomic_file(root / MANIFEST) as out:
