@@ -9,6 +9,9 @@ uniformly by area on both surfaces. In the units of the points (object frame: th
 
 from __future__ import annotations
 
+from collections import defaultdict
+from collections.abc import Iterable
+
 import numpy as np
 from scipy.spatial import cKDTree
 
@@ -40,3 +43,12 @@ def mesh_chamfer(mesh: Mesh, truth_points: np.ndarray, rng: np.random.Generator,
                  count: int = 100_000) -> float:
     """Chamfer-L1 of ``mesh`` against points (T, 3) sampled on the true surface."""
     return chamfer_distance(sample_surface(mesh, count, rng), np.asarray(truth_points, np.float64))
+
+
+def chamfer_by_family(items: Iterable[tuple[str, Mesh, np.ndarray]], rng: np.random.Generator,
+                      count: int = 100_000) -> dict[str, float]:
+    """Mean Chamfer-L1 per family over (family, mesh, true surface points (T, 3)) triples."""
+    scores: dict[str, list[float]] = defaultdict(list)
+    for family, mesh, truth in items:
+        scores[family].append(mesh_chamfer(mesh, truth, rng, count))
+    return {family: float(np.mean(values)) for family, values in scores.items()}
