@@ -9,7 +9,7 @@ import pytest
 
 from genfield.field.grid import occupancy_from_sdf
 from genfield.mesh.extract import extract_mesh
-from genfield.mesh.quality import chamfer_distance, mesh_chamfer, sample_surface
+from genfield.mesh.quality import chamfer_by_family, chamfer_distance, mesh_chamfer, sample_surface
 from genfield.seeds import rng
 
 
@@ -45,3 +45,16 @@ def test_extracted_sphere_is_close_to_the_true_sphere():
     floor = chamfer_distance(sphere_points(0.6, 50_000, 4), sphere_points(0.6, 50_000, 5))
     assert cd < floor + 0.002
     assert floor == pytest.approx(0.5 * math.sqrt(4 * math.pi * 0.36 / 50_000), rel=0.3)
+
+
+def test_chamfer_by_family_averages_within_each_family():
+    mesh, _ = extract_mesh(lambda p: occupancy_from_sdf(np.linalg.norm(p, axis=1) - 0.6, 1 / 32),
+                           resolution=64)
+    items = [("near", mesh, sphere_points(0.62, 20_000, 6)),
+             ("near", mesh, sphere_points(0.64, 20_000, 7)),
+             ("far", mesh, sphere_points(0.7, 20_000, 8))]
+    scores = chamfer_by_family(items, rng(0, 0, "test"), count=20_000)
+    assert set(scores) == {"near", "far"}
+    # concentric spheres: the Chamfer distance is the radial gap (mean of 0.02 and 0.04 for "near")
+    assert scores["near"] == pytest.approx(0.03, abs=0.004)
+    assert scores["far"] == pytest.approx(0.1, abs=0.004)
