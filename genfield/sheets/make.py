@@ -27,10 +27,16 @@ log = logging.getLogger(__name__)
 
 
 def render_all(model: Any, scenes: Sequence[Scene], what: str) -> list[RenderOutput]:
-    """Render every scene with ``genfield.render.render_scene``, showing progress."""
-    from genfield.render import render_scene
+    """Render every scene with ``genfield.render.render_scene``, showing progress.
 
-    return [render_scene(model, s) for s in tqdm(scenes, desc=what, unit="image", leave=False)]
+    Sheets show visible masks only, so the amodal masks (one more pass per object) are skipped.
+    """
+    from genfield.render.options import RenderOptions
+    from genfield.render.renderer import render_scene
+
+    options = RenderOptions(amodal=False)
+    return [render_scene(model, s, options=options)
+            for s in tqdm(scenes, desc=what, unit="image", leave=False)]
 
 
 @dataclass(frozen=True)
