@@ -30,7 +30,7 @@ def spec(count: int = 6, seed: int = 3, *, size: int = 32, objects: int = 3, flo
          outputs=("image", "mask", "depth", "normals")) -> JobSpec:
     params = {"size": size, "objects": objects, "floor": floor}
     return JobSpec(
-        recipe_name="spheres.json", recipe_text=json.dumps(params, sort_keys=True),
+        recipe_files=(("spheres.json", json.dumps(params, sort_keys=True)),),
         model_name="none.bin", model_bytes=b"analytic spheres", seed=seed, count=count,
         splits=(("train", 0.6), ("val", 0.2), ("test", 0.2)), outputs=tuple(outputs),
         classes=CLASSES, factory=FACTORY,

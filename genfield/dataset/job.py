@@ -19,7 +19,7 @@ import tempfile
 import threading
 from dataclasses import dataclass
 from functools import cached_property
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 from typing import Protocol
 
 from genfield.dataset.labels import ImageResult, label_image
@@ -46,8 +46,9 @@ class JobSpec:
     spec in a worker; genfield's own is the recipe pipeline, tests plug in analytic ones.
     """
 
-    recipe_name: str  # the recipe's file name (no folders), for the manifest and messages
-    recipe_text: str  # the whole recipe
+    # the recipe file first, then the files it includes: (path relative to their common
+    # folder, POSIX separators, never "..", text)
+    recipe_files: tuple[tuple[str, str], ...]
     model_name: str  # the model file's name (no folders)
     model_bytes: bytes  # the whole model file
     seed: int  # the run's seed
@@ -62,10 +63,27 @@ class JobSpec:
             raise ValueError(f"outputs must include 'image' and be among {OUTPUTS}, got {self.outputs}")
         if abs(sum(f for _, f in self.splits) - 1.0) > 1e-9:
             raise ValueError(f"split fractions must sum to 1, got {self.splits}")
+        for rel, _ in self.recipe_files:
+            parts = PurePosixPath(rel).parts
+            if not parts or PurePosixPath(rel).is_absolute() or ".." in parts:
+                raise ValueError(f"recipe file paths must be relative and inside, got {rel!r}")
+        if PurePosixPath(self.model_name).name != self.model_name or self.model_name in ("", ".", ".."):
+            raise ValueError(f"model_name must be a bare file name, got {self.model_name!r}")
+
+    @property
+    def recipe_name(self) -> str:
+        """The recipe file's path relative to the folder of all its files."""
+        return self.recipe_files[0][0]
+
+    @property
+    def recipe_text(self) -> str:
+        """The recipe file's own text (without its includes)."""
+        return self.recipe_files[0][1]
 
     @cached_property
     def recipe_sha256(self) -> str:
-        return hashlib.sha256(self.recipe_text.encode("utf-8")).hexdigest()
+        """sha256 of every recipe file, paths and texts."""
+        return hashlib.sha256(json.dumps(self.recipe_files).encode("utf-8")).hexdigest()
 
     @cached_property
     def model_sha256(self) -> str:
@@ -108,10 +126,14 @@ def recipe_pipeline(spec: JobSpec) -> Pipeline:
     from genfield.recipe import load_recipe
 
     with tempfile.TemporaryDirectory(prefix="genfield-job-") as tmp:
-        model_path = Path(tmp) / spec.model_name
+        model_path = Path(tmp) / "model" / spec.model_name
+        model_path.parent.mkdir()
         model_path.write_bytes(spec.model_bytes)
-        recipe_path = Path(tmp) / spec.recipe_name
-        recipe_path.write_text(spec.recipe_text, encoding="utf-8")
+        for rel, text in spec.recipe_files:
+            path = Path(tmp) / "recipe" / rel
+            path.parent.mkdir(parents=True, exist_ok=True)
+            path.write_text(text, encoding="utf-8")
+        recipe_path = Path(tmp) / "recipe" / spec.recipe_name
         model = load_model(model_path)
         recipe = load_recipe(recipe_path, model=model_path)
     return _RecipePipeline(recipe, model, spec.seed)
