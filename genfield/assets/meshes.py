@@ -209,7 +209,7 @@ def load_mesh(path: Path, *, metres_per_unit: float = 1.0, up: str | None = None
                           where=where)
     offsets = np.cumsum([0] + [len(p.vertices) for p in parts])
     vertices = np.concatenate([np.asarray(p.vertices, dtype=np.float64) for p in parts])
-    faces = np.concatenate([np.asarray(p.faces, dtype=np.int64) + o for p, o in zip(parts, offsets)])
+    faces = np.concatenate([np.asarray(p.faces, dtype=np.int64) + o for p, o in zip(parts, offsets[:-1], strict=True)])
     if not np.isfinite(vertices).all():
         raise SourceError("degenerate mesh: vertices that are not finite numbers", where=where)
     rot = _UP_Y if up == "y" else np.eye(3)
