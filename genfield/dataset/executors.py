@@ -38,7 +38,6 @@ def serial_results(spec: JobSpec, indices: Iterable[int]) -> Iterator[ImageResul
 
     previous = _single_thread()
     try:
-        pipeline_for(spec)  # build (and check) once before the first image
         for index in indices:
             yield render_task(spec, index)
     finally:

@@ -5,7 +5,8 @@ world-to-camera 4x4, size), light, backdrop, the recipe's named values, and per 
 id, class, shape and appearance codes (numbers and the expression that made them), pose
 (object-to-world 4x4, translation, rotation, scale, yaw/pitch/roll in radians), visible and
 amodal pixel counts, visible fraction, visible and amodal boxes [x, y, w, h] (null when
-empty), and the eight corners of its object cube projected into the image.
+empty), the eight corners of its object cube projected into the image, and (when the recipe
+asks for the "amodal" output) its amodal mask as COCO RLE.
 """
 
 from __future__ import annotations
@@ -16,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from genfield.dataset.coco import box_xywh
+from genfield.dataset.coco import box_xywh, rle
 from genfield.render.camera import project
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene, SceneObject
@@ -41,10 +42,12 @@ def camera_factors(scene: Scene) -> dict[str, Any]:
 
 
 def object_factors(scene: Scene, obj: SceneObject, visible: np.ndarray,
-                   amodal: np.ndarray) -> dict[str, Any]:
-    """One object's factors; ``visible`` and ``amodal`` are its (H, W) bool masks."""
+                   amodal: np.ndarray, amodal_mask: bool = False) -> dict[str, Any]:
+    """One object's factors; ``visible`` and ``amodal`` are its (H, W) bool masks, the latter
+    stored as COCO RLE under ``amodal_mask`` when asked."""
     yaw, pitch, roll = obj.pose.yaw_pitch_roll
     n_visible, n_amodal = int(visible.sum()), int(amodal.sum())
+    extra = {"amodal_mask": rle(amodal)} if amodal_mask else {}
     return {
         "id": obj.id,
         "class": obj.label,
@@ -64,15 +67,18 @@ def object_factors(scene: Scene, obj: SceneObject, visible: np.ndarray,
         "bbox_visible": box_xywh(visible),
         "bbox_amodal": box_xywh(amodal),
         "box_corners": box_corners(scene, obj),
+        **extra,
     }
 
 
-def image_factors(scene: Scene, output: RenderOutput, ids: np.ndarray, split: str) -> dict[str, Any]:
+def image_factors(scene: Scene, output: RenderOutput, ids: np.ndarray, split: str, *,
+                  amodal_masks: bool = False) -> dict[str, Any]:
     """The factors line of one rendered scene; ``ids`` is its (H, W) uint16 instance-id map."""
     if output.amodal is None:
         raise ValueError("the dataset writer needs amodal masks; render with them switched on")
     objects = [
-        object_factors(scene, obj, ids == obj.id, output.amodal[output.object_ids.index(obj.id)])
+        object_factors(scene, obj, ids == obj.id, output.amodal[output.object_ids.index(obj.id)],
+                       amodal_masks)
         for obj in scene.objects
     ]
     return {

@@ -24,10 +24,16 @@ from typing import Protocol
 
 from genfield.dataset.labels import ImageResult, label_image
 from genfield.dataset.layout import OUTPUTS, split_of
+from genfield.errors import DatasetError, ModelFileError, UsageError
+from genfield.render.options import RenderOptions
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene
 
 RECIPE_PIPELINE = "genfield.dataset.job:recipe_pipeline"
+# One thread (see the module doc). A modest grid cache: named codes repeat and stay cached,
+# codes drawn from the prior never repeat, so a large cache would only make memory grow
+# with the number of images up to its bound.
+DATASET_RENDER = RenderOptions(threads=1, memory_cache_mb=64.0)
 
 
 class Pipeline(Protocol):
@@ -56,6 +62,7 @@ class JobSpec:
     splits: tuple[tuple[str, float], ...]  # (("train", 0.8), ("val", 0.1), ("test", 0.1))
     outputs: tuple[str, ...]  # files per image, in layout order; always includes "image"
     classes: tuple[str, ...]  # category labels, in recipe order
+    amodal_masks: bool = False  # also store each object's amodal mask (RLE) in its factors
     factory: str = RECIPE_PIPELINE
 
     def __post_init__(self) -> None:
@@ -93,7 +100,7 @@ class JobSpec:
     def key(self) -> str:
         """A hash of everything that decides the output: same key, same bytes."""
         text = json.dumps([self.recipe_sha256, self.model_sha256, self.seed, self.count,
-                           self.splits, self.outputs, self.classes, self.factory])
+                           self.splits, self.outputs, self.classes, self.amodal_masks, self.factory])
         return hashlib.sha256(text.encode()).hexdigest()
 
     def split(self, index: int) -> str:
@@ -114,7 +121,7 @@ class _RecipePipeline:
     def render(self, scene: Scene) -> RenderOutput:
         from genfield.render import render_scene
 
-        return render_scene(self.model, scene)
+        return render_scene(self.model, scene, options=DATASET_RENDER)
 
 
 def recipe_pipeline(spec: JobSpec) -> Pipeline:
@@ -139,6 +146,50 @@ def recipe_pipeline(spec: JobSpec) -> Pipeline:
     return _RecipePipeline(recipe, model, spec.seed)
 
 
+def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
+                    count: int | None = None, seed: int | None = None) -> JobSpec:
+    """The job a recipe describes, with the model file's bytes; ``count``/``seed`` override it.
+
+    Raises RecipeError for a bad recipe, UsageError for a missing model or a bad option,
+    DatasetError for an output genfield render does not write.
+    """
+    from genfield.recipe.loader import load_recipe
+
+    recipe = load_recipe(recipe_path, model=model)
+    if recipe.model_path is None:
+        raise UsageError("the recipe names no model file", where=str(recipe_path),
+                         hint='add a line model "FILE" to the recipe, or give --model')
+    try:
+        model_bytes = Path(recipe.model_path).read_bytes()
+    except OSError as err:
+        raise ModelFileError(f"cannot read the model file: {err.strerror}", where=str(recipe.model_path),
+                             hint="train one with 'genfield train', or give --model") from None
+    if count is not None and count < 1:
+        raise UsageError(f"--count must be at least 1, got {count}")
+    if seed is not None and seed < 0:
+        raise UsageError(f"--seed must be >= 0, got {seed}")
+    unwritten = sorted(set(recipe.dataset.outputs) - set(OUTPUTS) - {"amodal"})
+    if unwritten:
+        raise DatasetError(f"genfield render does not write the output(s) {', '.join(unwritten)}",
+                           where=str(recipe_path),
+                           hint="drop them from the dataset outputs; 'genfield mesh' exports scene meshes")
+    root = Path(recipe_path).resolve().parent  # the loader keeps every include inside it
+    files = tuple((Path(f).resolve().relative_to(root).as_posix(), Path(f).read_text(encoding="utf-8"))
+                  for f in recipe.files)
+    wanted = set(recipe.dataset.outputs) | {"image"}
+    return JobSpec(
+        recipe_files=files,
+        model_name=Path(recipe.model_path).name,
+        model_bytes=model_bytes,
+        seed=recipe.dataset.seed if seed is None else seed,
+        count=recipe.dataset.count if count is None else count,
+        splits=tuple((name, float(f)) for name, f in recipe.dataset.splits.items()),
+        outputs=tuple(o for o in OUTPUTS if o in wanted),
+        amodal_masks="amodal" in recipe.dataset.outputs,
+        classes=tuple(recipe.classes),
+    )
+
+
 _PIPELINES: dict[str, Pipeline] = {}
 _LOCK = threading.Lock()
 
@@ -159,4 +210,4 @@ def render_task(spec: JobSpec, index: int) -> ImageResult:
     if scene.index != index:
         raise ValueError(f"the pipeline drew scene {scene.index} when asked for {index}")
     return label_image(scene, pipeline.render(scene), count=spec.count, split=spec.split(index),
-                       classes=spec.classes, outputs=spec.outputs)
+                       classes=spec.classes, outputs=spec.outputs, amodal_masks=spec.amodal_masks)

@@ -34,8 +34,10 @@ class ImageResult:
 
 
 def label_image(scene: Scene, output: RenderOutput, *, count: int, split: str,
-                classes: tuple[str, ...], outputs: tuple[str, ...]) -> ImageResult:
-    """Encode one render: PNGs for ``outputs``, COCO annotations of visible objects, factors.
+                classes: tuple[str, ...], outputs: tuple[str, ...],
+                amodal_masks: bool = False) -> ImageResult:
+    """Encode one render: PNGs for ``outputs``, COCO annotations of visible objects, factors
+    (with each object's amodal mask as RLE when ``amodal_masks``).
 
     Objects whose class is not among ``classes`` are a bug upstream (the recipe checks
     classes), so they raise ValueError rather than being dropped.
@@ -64,6 +66,6 @@ def label_image(scene: Scene, output: RenderOutput, *, count: int, split: str,
         "image": {"id": scene.index, "file_name": image_file("image", scene.index, count),
                   "width": int(w), "height": int(h)},
         "annotations": annotations,
-        "factors": image_factors(scene, output, ids, split),
+        "factors": image_factors(scene, output, ids, split, amodal_masks=amodal_masks),
     }
     return ImageResult(scene.index, files, json.dumps(record, sort_keys=True).encode())

@@ -31,7 +31,7 @@ SPLIT_RULE = "frac(index * 2654435769 / 2^32) against the cumulative split fract
 
 # the plan keys a resume or a merge must find equal
 IDENTITY_KEYS = ("format_version", "genfield_version", "recipe", "model", "seed", "count",
-                 "splits", "outputs", "classes")
+                 "splits", "outputs", "amodal_masks", "classes")
 
 ENCODING = {
     "image": "8-bit sRGB PNG (IEC 61966-2-1)",
@@ -57,6 +57,7 @@ def plan(spec: JobSpec, shard: tuple[int, int] | None) -> dict[str, Any]:
         "splits": dict(spec.splits),
         "split_rule": SPLIT_RULE,
         "outputs": list(spec.outputs),
+        "amodal_masks": spec.amodal_masks,
         "classes": list(spec.classes),
         "shard": None if shard is None else {"index": shard[0], "of": shard[1]},
         "encoding": {k: v for k, v in ENCODING.items() if k in spec.outputs},
@@ -64,7 +65,7 @@ def plan(spec: JobSpec, shard: tuple[int, int] | None) -> dict[str, Any]:
 
 
 PLAN_KEYS = ("format", "format_version", "genfield_version", "recipe", "model", "seed", "count",
-             "splits", "split_rule", "outputs", "classes", "shard", "encoding")
+             "splits", "split_rule", "outputs", "amodal_masks", "classes", "shard", "encoding")
 
 
 def head_of(manifest: dict[str, Any], shard: tuple[int, int] | None) -> dict[str, Any]:

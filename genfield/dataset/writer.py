@@ -28,7 +28,7 @@ from genfield.dataset.files import (
     write_atomic,
     write_error,
 )
-from genfield.dataset.job import JobSpec
+from genfield.dataset.job import JobSpec, pipeline_for
 from genfield.dataset.labels import ImageResult
 from genfield.dataset.layout import is_temp, own_entries, record_file, shard_indices
 from genfield.dataset.manifest import differences, plan, read_manifest, write_manifest
@@ -139,6 +139,7 @@ def write_dataset(root: Path | str, spec: JobSpec, *, shard: tuple[int, int] | N
     if workers < 1:
         raise UsageError(f"--workers must be at least 1, got {workers}")
     head = plan(spec, shard)
+    pipeline_for(spec)  # a bad recipe or model fails here, before the folder is touched
     old = prepare(root, head, resume=resume, force=force)
     indices = shard_indices(spec.count, shard)
     known = old.get("files", {}) if resume else {}
