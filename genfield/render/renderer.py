@@ -1,0 +1,157 @@
+"""``render_scene``: a concrete scene and a model into an image and exact per-pixel labels.
+
+Pipeline (DEVELOPERS.md, "The renderer"): pick a grid size per object from its size on
+screen; fetch its prepared grid from the cache (memory, disk, else ``model.bake``); cast one
+ray per pixel; cut rays at the floor; march the rays that meet an object's cube, in chunks,
+at shared steps (``march``); merge and volume-render (``composite``); shade the visible
+samples (``shade``); trace shadow rays through the same grids; put the objects over the
+floor and the backdrop.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from typing import Any
+
+import numpy as np
+import torch
+
+from genfield.colour import srgb_to_linear
+from genfield.render.cache import GridCache, default_cache
+from genfield.render.camera import pixel_rays
+from genfield.render.composite import composite
+from genfield.render.march import Placed, box_interval, march_all, transmittance
+from genfield.render.options import RenderOptions, auto_resolution
+from genfield.render.output import MASK_ALPHA, RenderOutput
+from genfield.render.shade import backdrop_image, floor_distance, surface_terms, unit
+from genfield.scene import Camera, Pose, Scene
+
+log = logging.getLogger(__name__)
+
+# Shadow rays start this many ray steps off the surface along its normal, clear of the
+# surface's own density ramp (a "shadow bias", common practice against self-shadowing).
+SHADOW_BIAS_STEPS = 2.0
+FLOOR_BIAS = 1e-4  # metres above the floor where its shadow rays start
+
+
+def cube_pixels(camera: Camera, pose: Pose) -> float:
+    """Pixels spanned on screen by the object's cube (2 s wide) at its centre's depth.
+
+    inf when the camera is within the cube's bounding sphere (the nearest point is closer).
+    """
+    z = float((camera.w2c @ np.r_[pose.t, 1.0])[2])
+    if z <= math.sqrt(3.0) * pose.scale:
+        return math.inf
+    return 2.0 * pose.scale * max(camera.fx, camera.fy) / z
+
+
+def _chunks(ids: np.ndarray, size: int):
+    for start in range(0, len(ids), size):
+        yield ids[start : start + size]
+
+
+def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOptions(),
+                 cache: GridCache | None = None) -> RenderOutput:
+    """Render ``scene`` with the fields of ``model`` (anything with ``bake``; see DEVELOPERS.md).
+
+    ``cache`` defaults to the process-wide one, bounded by ``options``.
+    """
+    torch.set_num_threads(options.threads)
+    torch.set_flush_denormal(True)
+    cam = scene.camera
+    h, w = cam.height, cam.width
+    n = h * w
+    k_objects = len(scene.objects)
+    if cache is None:
+        cache = default_cache(options.memory_cache_mb, options.disk_cache, options.disk_cache_mb)
+    placed = [
+        Placed.make(cache.get(model, obj.shape.array, obj.appearance.array,
+                              auto_resolution(options, cube_pixels(cam, obj.pose))), obj.pose)
+        for obj in scene.objects
+    ]
+    marching = [i for i, p in enumerate(placed) if not p.grid.is_empty]
+    active = [placed[i] for i in marching]
+
+    rays = pixel_rays(cam)
+    origins, directions = rays.origins, rays.directions
+    light = unit(scene.light.direction)
+    backdrop = scene.backdrop
+    t_floor = floor_distance(origins, directions) if backdrop.floor else np.full(n, np.inf)
+
+    alpha = np.zeros(n)
+    t_surface = np.full(n, np.inf)
+    delta = np.full(n, np.inf)
+    shares = np.zeros((k_objects, n))
+    alone = np.zeros((k_objects, n))
+    albedo_sum = np.zeros((n, 3))
+    direct_sum = np.zeros((n, 3))
+    normal_sum = np.zeros((n, 3))
+    o3, d3 = np.ascontiguousarray(origins.T), np.ascontiguousarray(directions.T)  # (3, N)
+    intervals = [box_interval(p, o3, d3) for p in active]
+    met = np.zeros(n, bool)
+    for t0, t1 in intervals:
+        met |= (t1 > t0) & (t0 < t_floor)
+    for ids in _chunks(np.flatnonzero(met), options.chunk_rays):
+        sub = [(t0.take(ids), t1.take(ids)) for t0, t1 in intervals]
+        samples, dl = march_all(active, o3.take(ids, axis=1), d3.take(ids, axis=1), t_floor.take(ids),
+                                options.step, sub)
+        merged = composite(samples, dl, len(ids))
+        a_sum, d_sum, n_sum = surface_terms(merged, samples, active, light, len(ids))
+        alpha[ids], t_surface[ids], delta[ids] = merged.alpha, merged.t_surface, dl
+        shares[marching, ids[:, None]] = merged.shares.T
+        alone[marching, ids[:, None]] = merged.alone.T
+        albedo_sum[ids], direct_sum[ids], normal_sum[ids] = a_sum, d_sum, n_sum
+
+    on_object = np.isfinite(t_surface)
+    length = np.linalg.norm(normal_sum, axis=1, keepdims=True)
+    normals = np.where(length > 0.0, normal_sum / np.maximum(length, 1e-30), 0.0)
+    on_floor = ~on_object & np.isfinite(t_floor)
+    floor_normal = np.where(origins[:, 2:3] >= 0.0, 1.0, -1.0) * np.array([0.0, 0.0, 1.0])  # (N, 3)
+
+    # light reaching the first surfaces: 1, or the transmittance of the shadow ray
+    vis_object = np.ones(n)
+    vis_floor = np.ones(n)
+    if scene.light.shadows and active:
+        i = np.flatnonzero(on_object)
+        pts = (origins[i] + t_surface[i, None] * directions[i]
+               + SHADOW_BIAS_STEPS * delta[i, None] * normals[i])
+        vis_object[i] = _shadow(active, pts, light, options)
+        i = np.flatnonzero(np.isfinite(t_floor) & (alpha < 1.0))  # floor pixels that show
+        vis_floor[i] = _shadow(active, origins[i] + t_floor[i, None] * directions[i]
+                               + FLOOR_BIAS * floor_normal[i], light, options)
+
+    lit = scene.light
+    rgb_objects = lit.ambient * albedo_sum + (lit.strength * vis_object)[:, None] * direct_sum
+    behind = backdrop_image(backdrop, h, w).reshape(n, 3)
+    if backdrop.floor:
+        floor_albedo = srgb_to_linear(np.asarray(backdrop.floor_srgb))
+        cosine = np.maximum(floor_normal @ light, 0.0)
+        floor_rgb = floor_albedo[None, :] * (lit.ambient + lit.strength * cosine * vis_floor)[:, None]
+        hit = np.isfinite(t_floor)
+        behind = np.where(hit[:, None], floor_rgb, behind)
+    rgb = rgb_objects + (1.0 - alpha)[:, None] * behind  # objects over what lies behind them
+
+    depth = np.where(on_object, t_surface, np.where(on_floor, t_floor, np.inf)) * rays.z_per_t
+    normals = np.where(on_object[:, None], normals, np.where(on_floor[:, None], floor_normal, 0.0))
+    amodal = (alone >= MASK_ALPHA).reshape(k_objects, h, w) if options.amodal else None
+    return RenderOutput(
+        rgb=rgb.reshape(h, w, 3).astype(np.float32),
+        depth=depth.reshape(h, w).astype(np.float32),
+        alpha=alpha.reshape(h, w).astype(np.float32),
+        weights=shares.reshape(k_objects, h, w).astype(np.float32),
+        amodal=amodal,
+        normals=normals.reshape(h, w, 3).astype(np.float32),
+        object_ids=tuple(obj.id for obj in scene.objects),
+    )
+
+
+def _shadow(placed: list[Placed], points: np.ndarray, light: np.ndarray,
+            options: RenderOptions) -> np.ndarray:
+    """(M,) transmittance from ``points`` towards the light through all objects, chunked."""
+    out = np.ones(len(points))
+    for ids in _chunks(np.arange(len(points)), options.chunk_rays):
+        o3 = np.ascontiguousarray(points[ids].T)  # (3, m)
+        d3 = np.ascontiguousarray(np.broadcast_to(light[:, None], o3.shape))
+        out[ids] = transmittance(placed, o3, d3, options.step)
+    return out
