@@ -17,6 +17,8 @@ _PUBLIC: dict[str, str] = {
     "GenfieldError": "genfield.errors",
     "Scene": "genfield.scene",
     "SceneDataset": "genfield.dataset.reader",
+    "render_scene": "genfield.render.renderer",
+    "RenderOptions": "genfield.render.options",
 }
 
 __all__ = ["__version__", *_PUBLIC]
