@@ -1,0 +1,241 @@
+"""Concrete scene ``index`` of a checked recipe for a seed: ``draw_scene -> genfield.scene.Scene``.
+
+Every draw comes from a stream of its own, ``genfield.seeds.rng(seed, index, purpose, ...)``:
+the per-image constants, the camera, the light, the backdrop, the layout, each object
+block's count, and per object instance (block b, instance k) its constants, pose, codes and
+placement. Image i is therefore the same on every run, whichever other images are drawn
+and in whatever order, and an override changes only the number it overrides.
+
+Placement: an object on the floor gets z = s (|R20| + |R21| + |R22|), which puts the lowest
+corner of its rotated cube [-1, 1]^3 on z = 0; ``inside`` draws the centre uniformly in the
+region shrunk by the bounding radius sqrt(3) s, so the bounding sphere's footprint stays in
+it; with ``apart`` (the default) a placement is rejected while its bounding sphere comes
+nearer than ``gap`` to one already placed, up to ``tries`` times.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from genfield.errors import RecipeError
+from genfield.field.codebook import CodeBook
+from genfield.recipe import values as v
+from genfield.recipe.codes import resolve
+from genfield.recipe.names import error_at
+from genfield.recipe.spec import ObjectSpec, Recipe
+from genfield.render.camera import look_at, make_camera, orbit_position
+from genfield.scene import Backdrop, Camera, CodeChoice, Light, Pose, Scene, SceneObject
+from genfield.seeds import rng
+
+SQRT3 = math.sqrt(3.0)
+
+
+def check_overrides(recipe: Recipe, overrides: Mapping[str, float]) -> dict[str, float]:
+    """Overrides by parameter name, each a finite number inside its parameter's bounds."""
+    out: dict[str, float] = {}
+    for name, value in overrides.items():
+        info = recipe.parameter(name)
+        try:
+            x = float(value)
+        except (TypeError, ValueError):
+            raise RecipeError(f"the value for {name} must be a number, got {value!r}",
+                              where=f"override {name}") from None
+        if not math.isfinite(x):
+            raise RecipeError(f"the value for {name} must be finite, got {x}",
+                              where=f"override {name}")
+        if info.bound is not None and not info.bound.holds(x):
+            raise RecipeError(f"{name} must be {info.bound.text}, got {v.show(x, info.unit)}",
+                              where=f"override {name}")
+        if info.whole:
+            if not x.is_integer():
+                raise RecipeError(f"{name} must be a whole number, got {x:g}",
+                                  where=f"override {name}")
+            x = int(x)
+        out[name] = x
+    return out
+
+
+def _json(value: Any) -> Any:
+    return list(value) if isinstance(value, tuple) else value
+
+
+def draw_scene(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
+               overrides: Mapping[str, float] | None = None) -> Scene:
+    """Concrete scene ``index`` for ``seed``.
+
+    Args:
+        recipe: a checked recipe (``load_recipe``).
+        codebook: the model's codes; None leaves code vectors empty (expressions still drawn).
+        seed, index: non-negative integers; the scene depends on nothing else.
+        overrides: parameter name -> value in metres, radians, pixels or plain numbers
+            (``recipe.parameters()`` lists the names); each replaces what the recipe draws.
+    """
+    if seed < 0 or index < 0:
+        raise RecipeError(f"seed and index must be >= 0, got seed {seed}, index {index}")
+    fixed = check_overrides(recipe, overrides or {})
+    env: dict[str, Any] = {}
+    ctx = v.Context(rng(seed, index, "constants"), env, fixed)
+    for c in recipe.constants:
+        if not c.per_object:
+            env[c.name] = v.draw(c.value, ctx)
+
+    def stream(purpose: str, *extra: int) -> v.Context:
+        return v.Context(rng(seed, index, purpose, *extra), env, fixed)
+
+    camera = _camera(recipe, stream("camera"))
+    light = _light(recipe, stream("light"))
+    backdrop = _backdrop(recipe, stream("backdrop"))
+    gap = float(v.draw(recipe.layout.gap, stream("layout")))
+    objects = _objects(recipe, codebook, seed, index, env, fixed, gap)
+    values = {c.name: _json(env[c.name]) for c in recipe.constants if not c.per_object}
+    values.update(fixed)
+    return Scene(index=index, seed=seed, camera=camera, objects=tuple(objects), light=light,
+                 backdrop=backdrop, values=values)
+
+
+def _camera(recipe: Recipe, ctx: v.Context) -> Camera:
+    spec = recipe.camera
+    fov = None if spec.fov is None else float(v.draw(spec.fov, ctx))
+    focal = None if spec.focal is None else float(v.draw(spec.focal, ctx))
+    target = np.array(v.draw(spec.target, ctx), dtype=np.float64)
+    up = np.array(v.draw(spec.up, ctx), dtype=np.float64)
+    if spec.orbit:
+        distance, elevation, azimuth = (float(v.draw(n, ctx)) for n in
+                                        (spec.distance, spec.elevation, spec.azimuth))
+        position = orbit_position(target, distance, elevation, azimuth)
+    else:
+        position = np.array(v.draw(spec.position, ctx), dtype=np.float64)
+    try:
+        w2c = look_at(position, target, up)
+    except ValueError as err:
+        raise error_at(f"the camera cannot be placed: {err}", spec.pos,
+                       hint="move it off the target, or away from straight along 'up'") from None
+    if focal is not None:
+        return make_camera(spec.width, spec.height, w2c, focal_px=focal)
+    return make_camera(spec.width, spec.height, w2c, fov_deg=math.degrees(fov))  # type: ignore[arg-type]
+
+
+def _light(recipe: Recipe, ctx: v.Context) -> Light:
+    spec = recipe.light
+    if spec.direction is not None:
+        d = np.array(v.draw(spec.direction, ctx), dtype=np.float64)
+        norm = float(np.linalg.norm(d))
+        if norm < 1e-12:
+            raise error_at("the light's direction is the zero vector", spec.pos)
+        d = d / norm
+    else:
+        el, az = float(v.draw(spec.elevation, ctx)), float(v.draw(spec.azimuth, ctx))
+        d = np.array([math.cos(el) * math.cos(az), math.cos(el) * math.sin(az), math.sin(el)])
+    strength = float(v.draw(spec.strength, ctx))
+    ambient = float(v.draw(spec.ambient, ctx))
+    return Light(direction=tuple(float(x) for x in d), strength=strength, ambient=ambient,  # type: ignore[arg-type]
+                 shadows=spec.shadows)
+
+
+def _colour(node: Any, ctx: v.Context) -> tuple[float, float, float]:
+    return tuple(min(max(float(c), 0.0), 1.0) for c in v.draw(node, ctx))  # type: ignore[return-value]
+
+
+def _backdrop(recipe: Recipe, ctx: v.Context) -> Backdrop:
+    spec = recipe.backdrop
+    top, bottom = _colour(spec.top, ctx), _colour(spec.bottom, ctx)
+    if spec.floor is None:
+        return Backdrop(top_srgb=top, bottom_srgb=bottom)
+    return Backdrop(top_srgb=top, bottom_srgb=bottom, floor=True, floor_srgb=_colour(spec.floor, ctx))
+
+
+@dataclass(frozen=True)
+class _Placed:
+    centre: np.ndarray  # (3,)
+    radius: float
+    name: str  # "washer #2"
+
+
+def _codes(obj: ObjectSpec, ctx: v.Context, codebook: CodeBook | None) -> tuple[CodeChoice, CodeChoice]:
+    def choice(vec: np.ndarray | None, expr: dict[str, Any]) -> CodeChoice:
+        values = () if vec is None else tuple(float(x) for x in vec.astype(np.float32))
+        return CodeChoice(values, expr)
+
+    if obj.joint is not None:
+        vec, expr = resolve(obj.joint, "joint", ctx, codebook)
+        if vec is None:
+            return choice(None, expr), choice(None, expr)
+        ds = codebook.shape_dim  # type: ignore[union-attr]
+        return choice(vec[:ds], expr), choice(vec[ds:], expr)
+    shape = choice(*resolve(obj.shape, "shape", ctx, codebook))
+    return shape, choice(*resolve(obj.appearance, "appearance", ctx, codebook))
+
+
+def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> np.ndarray:
+    """One candidate centre (3,) for an object of this scale and rotation."""
+    radius = SQRT3 * scale
+    axes = 2 if obj.on_floor else 3
+    if obj.at is not None:
+        xyz = list(v.draw(obj.at, ctx))
+    elif obj.inside is not None:
+        lo, hi = obj.inside
+        xyz = []
+        for axis in range(axes):
+            a, b = lo[axis] + radius, hi[axis] - radius
+            if a > b:
+                raise error_at(f"{obj.name} (bounding radius {v.show(radius, 'length')}) does not fit "
+                               f"inside its region along {v.AXES[axis]} "
+                               f"({v.show(lo[axis], 'length')}..{v.show(hi[axis], 'length')})",
+                               obj.pos, hint="make the region larger or the object smaller")
+            xyz.append(float(ctx.rng.uniform(a, b)))
+    else:
+        xyz = [0.0] * axes
+    if obj.on_floor:
+        xyz = xyz[:2] + [scale * float(np.abs(rot[2]).sum())]  # lowest rotated corner on z = 0
+    return np.array(xyz, dtype=np.float64)
+
+
+def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
+             env: dict[str, Any], fixed: dict[str, float], gap: float) -> list[SceneObject]:
+    placed: list[_Placed] = []
+    out: list[SceneObject] = []
+    layout = recipe.layout
+    for b, obj in enumerate(recipe.objects):
+        count = int(v.draw(obj.count, v.Context(rng(seed, index, "count", b), env, fixed)))
+        for k in range(count):
+            local = dict(env)
+            cctx = v.Context(rng(seed, index, "object-constants", b, k), local, fixed)
+            for c in recipe.constants:
+                if c.per_object:
+                    local[c.name] = v.draw(c.value, cctx)
+
+            def stream(purpose: str, b: int = b, k: int = k) -> v.Context:
+                return v.Context(rng(seed, index, purpose, b, k), local, fixed)
+
+            pose_ctx = stream("pose")
+            scale = float(v.draw(obj.scale, pose_ctx))
+            yaw, pitch, roll = (float(v.draw(n, pose_ctx)) for n in (obj.yaw, obj.pitch, obj.roll))
+            pose = Pose.from_ypr((0.0, 0.0, 0.0), yaw, pitch, roll, scale)
+            shape, appearance = _codes(obj, stream("codes"), codebook)
+            place_ctx = stream("place")
+            radius = SQRT3 * scale
+            tries = layout.tries if (obj.position_random and layout.apart) else 1
+            name = f"{obj.name} #{k + 1}"
+            for _ in range(tries):
+                centre = _centre(obj, scale, pose.R, place_ctx)
+                hits = [p.name for p in placed if layout.apart and
+                        float(np.linalg.norm(centre - p.centre)) < radius + p.radius + gap]
+                if not hits:
+                    break
+            else:
+                raise error_at(
+                    f"cannot place {name} apart from {', '.join(hits)}: its bounding sphere "
+                    f"overlaps in all {tries} tries", obj.pos,
+                    hint="give the objects more room (a larger region), make them smaller or "
+                    "fewer, or raise layout tries")
+            placed.append(_Placed(centre, radius, name))
+            out.append(SceneObject(
+                id=len(out) + 1, label=obj.label, shape=shape, appearance=appearance,
+                pose=Pose.from_ypr(tuple(centre), yaw, pitch, roll, scale),  # type: ignore[arg-type]
+            ))
+    return out
