@@ -61,41 +61,51 @@ class Checker:
 
     def _param(self, name: str, node: object, unit: str, source: str, pos: ast.Pos, *,
                bound: Bound | None = None, whole: bool = False, size: int = 0,
-               per_object: bool = False) -> object:
+               per_object: bool = False, expr: ast.Expr | None = None) -> object:
         """Wrap a number (or each part of a vector) as a sweepable parameter."""
         random = self.lower.random(node)
         if size:
-            for axis in v.AXES[:size]:
+            for i, axis in enumerate(v.AXES[:size]):
+                part_random, part_source = random, source
+                if isinstance(node, v.Tuple):
+                    part_random = self.lower.random(node.items[i])
+                elif isinstance(node, v.Box):
+                    part_random = node.hi[i] > node.lo[i]
+                elif isinstance(node, v.Fixed):
+                    part_random = False
+                if isinstance(expr, ast.Vector):
+                    part_source = format_expr(expr.items[i])
                 self.params[f"{name}.{axis}"] = ParamInfo(
-                    f"{name}.{axis}", unit, None, False, random, source, per_object, pos.where)
+                    f"{name}.{axis}", unit, None, False, part_random, part_source, per_object,
+                    pos.where)
             return v.ParamVec(name, node, size, pos=pos)
         self.params[name] = ParamInfo(name, unit, bound, whole, random, source, per_object,
                                       pos.where)
         return v.Param(name, node, pos=pos)
 
-    def _code_params(self, node: object, prefix: str, source: str, per_object: bool) -> object:
+    def _code_params(self, node: object, prefix: str, per_object: bool) -> object:
         """Name a code's numbers: prefix.temperature, prefix.w1.., prefix.dimK."""
         if isinstance(node, v.PriorCode):
-            t = self._param(f"{prefix}.temperature", node.temperature, "plain", source,
+            t = self._param(f"{prefix}.temperature", node.temperature, "plain", node.text,
                             node.pos, bound=_AT_LEAST_0, per_object=per_object)
-            return v.PriorCode(t, pos=node.pos)
+            return v.PriorCode(t, pos=node.pos, text=node.text)
         if isinstance(node, v.MixCode):
             weights = tuple(
-                self._param(f"{prefix}.w{i + 1}", w, "plain", source, node.pos,
+                self._param(f"{prefix}.w{i + 1}", w, "plain", text, node.pos,
                             bound=_AT_LEAST_0, per_object=per_object)
-                for i, w in enumerate(node.weights)
+                for i, (w, text) in enumerate(zip(node.weights, node.texts))
             )
             return v.MixCode(node.names, weights, node.spherical, pos=node.pos,
-                             name_pos=node.name_pos)
+                             name_pos=node.name_pos, texts=node.texts)
         if isinstance(node, v.ShiftCode):
-            base = self._code_params(node.base, prefix, source, per_object)
+            base = self._code_params(node.base, prefix, per_object)
             name = f"{prefix}.dim{node.dim}"
             if name in self.params:
                 raise error_at(f"dimension {node.dim} is shifted twice", node.pos)
-            by = self._param(name, node.by, "plain", source, node.pos, per_object=per_object)
-            return v.ShiftCode(base, node.dim, by, pos=node.pos)
+            by = self._param(name, node.by, "plain", node.text, node.pos, per_object=per_object)
+            return v.ShiftCode(base, node.dim, by, pos=node.pos, text=node.text)
         if isinstance(node, v.Pick):
-            options = tuple(self._code_params(o, prefix, source, per_object) for o in node.options)
+            options = tuple(self._code_params(o, prefix, per_object) for o in node.options)
             return v.Pick(options, node.probabilities)
         return node
 
@@ -127,7 +137,7 @@ class Checker:
                                whole=typed.type.whole, per_object=per_object)
         elif kind == "vector":
             node = self._param(c.name, node, typed.type.unit or "plain", source, c.pos,
-                               size=typed.type.size, per_object=per_object)
+                               size=typed.type.size, per_object=per_object, expr=c.value)
         span = self.lower.span(typed.node) if kind == "number" else None
         self.known[c.name] = Known(typed.type, span, self.lower.random(typed.node), per_object,
                                    c.pos)
@@ -173,7 +183,7 @@ class Checker:
         slot = BLOCKS[g.block.kind].settings[key]
         node = self._value(g, key, prefix, per_object_ok=per_object)
         s = g.settings.get(key)
-        source = format_expr(s.values[0]) if s else "(default)"
+        source = format_expr(s.values[0]) if s else f"{v.show(default, slot.unit)} (default)"
         pos = s.values[0].pos if s else g.block.pos
         return self._param(f"{prefix}.{key}", v.Fixed(default) if node is None else node,
                            slot.unit, source, pos, bound=slot.bound, whole=slot.type == "whole",
@@ -188,10 +198,11 @@ class Checker:
             return None
         node = v.Fixed(default) if node is None else node
         size = len(default) if s is None else self.lower.infer(s.values[0]).type.size
-        source = format_expr(s.values[0]) if s else "(default)"
+        source = format_expr(s.values[0]) if s else "(" + ", ".join(
+            v.show(x, slot.unit) for x in default) + ") (default)"  # type: ignore[union-attr]
         pos = s.values[0].pos if s else g.block.pos
         return self._param(f"{prefix}.{key}", node, slot.unit, source, pos, size=size,
-                           per_object=per_object)
+                           per_object=per_object, expr=s.values[0] if s else None)
 
     def _fixed(self, g: _Block, key: str, default):
         node = self._value(g, key, g.block.kind)
@@ -322,13 +333,15 @@ class Checker:
             # constants stay put between placement tries; only draws written in 'at' move
             position_random=inside is not None or (at is not None and v.is_random(at, set())),
             pos=b.pos,
+            code_text=tuple((k, format_expr(g.settings[k].values[0]))
+                            for k in ("asset", "shape", "appearance") if k in g.settings),
         )
 
     def _codes(self, g: _Block, name: str) -> tuple[object | None, object | None, object | None]:
         """(joint, shape, appearance) code nodes of an object."""
         def code(e: ast.Expr, slot_name: str) -> object:
             node = self.lower.fit(e, BLOCKS["object"].settings["shape"], f"{name} {slot_name}")
-            return self._code_params(node, f"{name}.{slot_name}", format_expr(e), True)
+            return self._code_params(node, f"{name}.{slot_name}", True)
 
         if "asset" in g.settings:
             e = g.settings["asset"].values[0]

@@ -96,7 +96,8 @@ class Lowering:
         if isinstance(e, ast.Prior):
             t = v.Fixed(1.0) if e.temperature is None else self.fit_number(
                 e.temperature, "plain", "a temperature", Bound(0.0, text=">= 0"))
-            return Typed(Type("code"), v.PriorCode(t, pos=e.pos))
+            text = "1 (default)" if e.temperature is None else format_expr(e.temperature)
+            return Typed(Type("code"), v.PriorCode(t, pos=e.pos, text=text))
         if isinstance(e, ast.Mix):
             return self._mix(e)
         if isinstance(e, ast.Shift):
@@ -104,7 +105,8 @@ class Lowering:
             by = self.fit_number(e.by, "plain", "a shift")
             if e.dim < 0:
                 raise error_at(f"code dimensions count from 0, got {e.dim}", e.pos)
-            return Typed(Type("code"), v.ShiftCode(base, e.dim, by, pos=e.pos))
+            return Typed(Type("code"), v.ShiftCode(base, e.dim, by, pos=e.pos,
+                                                   text=format_expr(e.by)))
         if isinstance(e, ast.Steps):
             raise error_at("'steps' makes a series of values for a sweep block", e.pos,
                            hint="for a random value write a..b")
@@ -236,8 +238,10 @@ class Lowering:
             else self.fit_number(item.weight, "plain", f"a {word} weight", Bound(0.0, text=">= 0"))
             for item in e.items
         )
+        texts = tuple("1 (default)" if i.weight is None else format_expr(i.weight) for i in e.items)
         return Typed(Type("code"), v.MixCode(tuple(names), weights, e.spherical, pos=e.pos,
-                                             name_pos=tuple(i.value.pos for i in e.items)))
+                                             name_pos=tuple(i.value.pos for i in e.items),
+                                             texts=texts))
 
     # ---- fitting to a slot ----
 

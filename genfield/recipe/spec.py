@@ -93,6 +93,7 @@ class ObjectSpec:
     on_floor: bool
     position_random: bool  # whether a retry can land elsewhere
     pos: ast.Pos = field(compare=False, repr=False)
+    code_text: tuple[tuple[str, str], ...] = field(default=(), compare=False)  # (setting, text)
 
 
 @dataclass(frozen=True)

@@ -163,6 +163,7 @@ class PriorCode:
 
     temperature: Any
     pos: Pos = field(default=NOWHERE, compare=False, repr=False)
+    text: str = field(default="1 (default)", compare=False, repr=False)  # the temperature as written
 
 
 @dataclass(frozen=True)
@@ -174,6 +175,7 @@ class MixCode:
     spherical: bool
     pos: Pos = field(default=NOWHERE, compare=False, repr=False)
     name_pos: tuple[Pos, ...] = field(default=(), compare=False, repr=False)
+    texts: tuple[str, ...] = field(default=(), compare=False, repr=False)  # weights as written
 
 
 @dataclass(frozen=True)
@@ -184,6 +186,7 @@ class ShiftCode:
     dim: int
     by: Any
     pos: Pos = field(default=NOWHERE, compare=False, repr=False)
+    text: str = field(default="", compare=False, repr=False)  # the offset as written
 
 
 @dataclass(frozen=True)

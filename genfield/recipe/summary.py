@@ -1,0 +1,66 @@
+"""The short summary ``genfield check`` prints: classes, counts, what is random, outputs."""
+
+from __future__ import annotations
+
+from genfield.recipe.spec import Recipe
+from genfield.recipe.values import is_random, show
+
+
+def kind_of(recipe: Recipe, name: str) -> str:
+    return next(c.kind for c in recipe.constants if c.name == name)
+
+
+def _box(lo: tuple[float, ...], hi: tuple[float, ...]) -> str:
+    def corner(c: tuple[float, ...]) -> str:
+        return "(" + ", ".join(show(x, "length") for x in c) + ")"
+
+    return f"{corner(lo)}..{corner(hi)}"
+
+
+def describe(recipe: Recipe, model_note: str = "") -> str:
+    """A few lines a person reads to see what the recipe will make."""
+    d = recipe.dataset
+    lines = [f"recipe {recipe.path}" + (f" (+{len(recipe.files) - 1} included)"
+                                         if len(recipe.files) > 1 else "")]
+    model = str(recipe.model_path) if recipe.model_path else "(none named; give --model)"
+    lines.append(f"model: {model}" + (f" ({model_note})" if model_note else ""))
+    splits = " / ".join(f"{k} {x:g}" for k, x in d.splits.items())
+    lines.append(f"dataset: {d.count} images, seed {d.seed}; {splits}; "
+                 f"outputs {', '.join(sorted(d.outputs))}")
+    lines.append(f"classes ({len(recipe.classes)}): {', '.join(recipe.classes) or '(none)'}")
+    for obj in recipe.objects:
+        count = recipe.params[f"{obj.name}.count"].source
+        where = "on the floor" if obj.on_floor else "free"
+        if obj.inside is not None:
+            where += f", inside {_box(*obj.inside)}"
+        codes = "; ".join(f"{k} {text}" for k, text in obj.code_text)
+        lines.append(f"  object {obj.name} (class {obj.label}): count {count}, {where}; {codes}")
+    cam = recipe.camera
+    how = "orbit" if cam.orbit else "look-at"
+    lens = "focal" if cam.fov is None else "fov"
+    lens_text = recipe.params[f"camera.{lens}"].source
+    lines.append(f"camera: {how}, {cam.width}x{cam.height}, {lens} {lens_text}")
+    random_constants: set[str] = set()
+    drawn: list[tuple[bool, str]] = []  # constants that are not numbers: texts, colours, boxes
+    for c in recipe.constants:
+        if is_random(c.value, random_constants):
+            random_constants.add(c.name)
+            if c.name not in recipe.params and not any(
+                    p.startswith(c.name + ".") for p in recipe.params):
+                drawn.append((c.per_object, c.name))
+    per_image = [f"{p.name} = {p.source}" for p in recipe.params.values()
+                 if p.random and not p.per_object]
+    per_image += [f"{name} (a {kind_of(recipe, name)})" for per_obj, name in drawn if not per_obj]
+    per_object = [f"{p.name} = {p.source}" for p in recipe.params.values()
+                  if p.random and p.per_object]
+    per_object += [f"{name} (a {kind_of(recipe, name)})" for per_obj, name in drawn if per_obj]
+    per_object_codes = [f"{o.name}.{k} = {t}" for o in recipe.objects for k, t in o.code_text
+                        if any(w in t for w in ("pick", "prior", ".."))]
+    lines.append("random per image: " + ("; ".join(per_image) or "nothing"))
+    lines.append("random per object: " + ("; ".join(per_object + per_object_codes) or "nothing"))
+    for s in recipe.sweeps:
+        parts = ", ".join(f"{name} ({len(vals)} values)" for name, vals in s.params)
+        shape = "zipped" if s.zipped else ("grid" if len(s.params) == 2 else "strip")
+        lines.append(f"sweep {s.name}: {parts}, {shape}, scene {s.index}")
+    lines.append(f"parameters: {len(recipe.params)} (see 'genfield sweep --vary NAME=VALUES')")
+    return "\n".join(lines)
