@@ -8,7 +8,7 @@ box centre in the file's own axes and metres, so that
 ``x_file = offset + R_up^T (metric_half_extent * x_object)``.
 
 Up axis: glTF is y-up by its spec and is turned so that +y becomes +z; OBJ, PLY and STL are
-taken as z-up unless ``up="y"`` is given. Inside/outside: a majority of ray parities
+taken as z-up unless ``up="y"`` is given. Inside/outside: a majority vote of rays
 (``mesh_inside``), reported per asset in ``parameters["inside_test"]``. Colour: ``mesh_colour``.
 
 Bad input raises SourceError naming the file: not a mesh, no triangles, only degenerate
@@ -30,7 +30,7 @@ import numpy as np
 
 from genfield.assets.asset import FIT, Asset
 from genfield.assets.mesh_colour import MeshColour, part_colour
-from genfield.assets.mesh_inside import RAYS, inside, parity_votes
+from genfield.assets.mesh_inside import RAYS, inside, ray_votes
 from genfield.errors import SourceError
 
 log = logging.getLogger(__name__)
@@ -43,14 +43,15 @@ _UP_Y = np.array([[1.0, 0.0, 0.0], [0.0, 0.0, -1.0], [0.0, 1.0, 0.0]])  # +y -> 
 
 @dataclass(frozen=True, eq=False)
 class MeshGeometry:
-    """A normalised mesh (object units), its colour, and the parity-vote inside test."""
+    """A normalised mesh (object units), its colour, and the ray-vote inside test."""
 
     mesh: object  # trimesh.Trimesh
     colour: MeshColour
+    signed: bool  # rays count signed crossings (consistent orientation) or parity
     _nearest: dict = field(default_factory=dict, repr=False)  # lazily built colour lookup
 
     def occupancy(self, points):
-        return inside(self.mesh, points).astype(np.float32)
+        return inside(self.mesh, points, self.signed).astype(np.float32)
 
     def face_colour_srgb(self, faces: np.ndarray, points: np.ndarray) -> np.ndarray:
         """sRGB (N, 3) at points (N, 3) lying on faces (N,)."""
@@ -226,17 +227,20 @@ def load_mesh(path: Path, *, metres_per_unit: float = 1.0, up: str | None = None
     mesh = trimesh.Trimesh((vertices - centre) / unit, faces[keep], process=False)
     colour = MeshColour.merge(colours, keep)
     welded = trimesh.Trimesh(mesh.vertices, mesh.faces, process=True)  # STL has unshared corners
-    watertight = bool(welded.is_watertight and welded.is_winding_consistent)
+    oriented = bool(welded.is_winding_consistent)
+    watertight = bool(welded.is_watertight and oriented)
     del welded
     digest = hashlib.sha256()
     for arr in (mesh.vertices, mesh.faces, colour.vertex_factor, colour.face_factor, colour.uv,
                 *colour.textures):
         digest.update(np.ascontiguousarray(arr).tobytes())
     digest.update(json.dumps([metres_per_unit, up]).encode())
-    geometry = MeshGeometry(mesh, colour)
-    split = _vote_split(mesh)
-    test = (f"ray parity, majority of {RAYS} directions; "
-            + ("mesh watertight" if watertight else "mesh NOT watertight, holes outvoted")
+    geometry = MeshGeometry(mesh, colour, signed=oriented)
+    split = _vote_split(mesh, oriented)
+    test = (f"majority of {RAYS} rays, each by "
+            + ("signed crossings (faces consistently oriented)" if oriented
+               else "crossing parity (faces not consistently oriented)")
+            + ("; mesh watertight" if watertight else "; mesh NOT watertight, holes outvoted")
             + f"; rays disagree at {100 * split:.2f}% of probe points")
     log.info("%s: %d triangles, colour from %s; inside test: %s", path.name, len(mesh.faces),
              "+".join(sorted(set(colour.kinds))), test)
@@ -255,7 +259,7 @@ def load_mesh(path: Path, *, metres_per_unit: float = 1.0, up: str | None = None
     )
 
 
-def _vote_split(mesh, probes: int = 4096) -> float:
+def _vote_split(mesh, signed: bool, probes: int = 4096) -> float:
     """Share of probe points (half uniform in the box, half within 1% of the surface) where the
     rays' parities disagree: zero on a clean closed mesh."""
     from trimesh.sample import sample_surface
@@ -265,7 +269,7 @@ def _vote_split(mesh, probes: int = 4096) -> float:
     g = rng(0, 0, "mesh-vote-probe")
     near, _ = sample_surface(mesh, probes // 2, seed=g)
     pts = np.concatenate([g.uniform(-1, 1, (probes // 2, 3)), near + g.normal(0, 0.01, near.shape)])
-    votes = parity_votes(mesh, pts)
+    votes = ray_votes(mesh, pts, signed)
     return float(np.mean((votes > 0) & (votes < RAYS)))
 
 
