@@ -184,11 +184,16 @@ def labelled_tile(image: np.ndarray, instance_ids: np.ndarray, depth: np.ndarray
                   names: dict[int, str], *, style: str = "tint") -> np.ndarray:
     """One preview tile: the overlaid image, and beside it the depth thumbnail at half width.
 
+    The depth scale runs from the nearest surface to the farthest object pixel, so the objects
+    keep the colour range even when a floor reaches far behind them (it shows as the far end).
     Returns (H, W + W // 2 + 2, 3) uint8 for an (H, W) image.
     """
     marked = label_overlay(image, instance_ids, names, style=style)
     h, w = marked.shape[:2]
-    thumb = depth_thumbnail(depth, max(16, w // 2))
+    d = np.asarray(depth)
+    on_object = np.isfinite(d) & (np.asarray(instance_ids) > 0)
+    far = float(d[on_object].max()) if on_object.any() else None
+    thumb = depth_thumbnail(d, max(16, w // 2), far=far)
     th = min(thumb.shape[0], h)
     canvas = np.empty((h, w + 2 + thumb.shape[1], 3), dtype=np.uint8)
     canvas[:] = BACKGROUND

@@ -6,9 +6,10 @@ VALUES is one of (our own syntax)::
     V1,V2,...   the listed values, in order                             0.5,1,2
     V           one value                                               45
 
-Any number may carry a unit (``deg``, ``rad``, ``m``, ``cm``, ``mm``); a unit written once
-applies to every number of the list (``0..90deg:7`` = ``0deg..90deg:7``), and two different
-units in one list are refused. The step count N is a bare integer >= 2.
+Any number may carry one of the recipe language's units (``deg``, ``rad``, ``m``, ``cm``,
+``mm``, ``px``); a unit written once applies to every number of the list (``0..90deg:7`` =
+``0deg..90deg:7``), and two different units in one list are refused. The step count N is a
+bare integer >= 2. The recipe then checks each value against the parameter's unit and bounds.
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ import numpy as np
 
 from genfield.errors import UsageError
 
-UNITS = ("deg", "rad", "m", "cm", "mm")
+UNITS = ("deg", "rad", "m", "cm", "mm", "px")
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([a-z]*)\s*$")
 
 
