@@ -1,0 +1,160 @@
+"""Regenerate the gallery from recipes/: small PNGs here, and the README section showing them.
+
+For every recipe in recipes/ (not the included files in its sub-folders) this renders a
+preview of its first images with their labels drawn on, and one sheet per sweep block, all
+with one model file (the demo's cached quick model unless --model is given, trained on first
+use). Sheets are stored with a 256-colour palette to keep the committed files small. Then it
+rewrites the part of README.md between the gallery markers: each picture with the recipe
+lines that made it.
+
+    python gallery/make_gallery.py [--model MODEL] [--recipes DIR] [--no-readme]
+
+Run by ``make gallery``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import logging
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+from PIL import Image
+
+ROOT = Path(__file__).resolve().parent.parent
+GALLERY = ROOT / "gallery"
+README = ROOT / "README.md"
+START = "<!-- gallery:start (written by `make gallery`; edits here are overwritten) -->"
+END = "<!-- gallery:end -->"
+PLACEHOLDER = "<!-- gallery: pictures made by `make gallery` from recipes/ go here -->"
+PREVIEW_COUNT = 4  # images per preview
+MAX_FRAMES = 8  # frames per sweep sheet; longer sweeps keep every k-th value
+
+log = logging.getLogger("make_gallery")
+
+
+@dataclass(frozen=True)
+class Picture:
+    """One gallery picture: its file, a caption, and the recipe lines behind it."""
+
+    path: Path
+    caption: str
+    recipe: Path
+    lines: str
+
+
+def block_lines(recipe: Path, kinds: tuple[str, ...], label: str | None = None) -> str:
+    """The source lines of the recipe's top-level blocks of these kinds (or the one labelled)."""
+    from genfield.recipe import ast, parse_text
+
+    text = recipe.read_text(encoding="utf-8")
+    source = text.splitlines()
+    program = parse_text(text, str(recipe))
+    chunks = []
+    for st in program.statements:
+        if isinstance(st, ast.Block) and st.kind in kinds and (label is None or st.label == label):
+            chunks.append("\n".join(source[st.pos.line - 1 : st.end_line]))
+    return "\n\n".join(chunks)
+
+
+def save_small(image: np.ndarray, path: Path) -> Path:
+    """PNG with an adaptive 256-colour palette (no dithering), about a third of the RGB size;
+    written to a temporary name and renamed."""
+    quantized = Image.fromarray(image).quantize(colors=256, method=Image.Quantize.MEDIANCUT,
+                                                dither=Image.Dither.NONE)
+    tmp = path.with_name(f".{path.name}.tmp")
+    quantized.save(tmp, format="PNG", optimize=True)
+    tmp.replace(path)
+    return path
+
+
+def thin(sweep, most: int):
+    """A strip of at most ``most`` frames: every k-th frame of a longer strip (grids stay)."""
+    from dataclasses import replace
+
+    n = len(sweep.outputs)
+    if sweep.row_labels or n <= most:
+        return sweep
+    keep = list(range(0, n, -(-n // most)))
+    return replace(sweep, scenes=tuple(sweep.scenes[k] for k in keep),
+                   outputs=tuple(sweep.outputs[k] for k in keep),
+                   factors=tuple(sweep.factors[k] for k in keep),
+                   column_labels=tuple(sweep.column_labels[k] for k in keep))
+
+
+def pictures_of(recipe: Path, model: Path) -> list[Picture]:
+    """Render one recipe's preview and sweep sheets into gallery/."""
+    from genfield.sheets.recipes import load, recipe_preview, recipe_sweep
+
+    loaded = load(recipe, model)
+    stem = recipe.stem
+    rel = recipe.relative_to(ROOT)
+    out = [Picture(
+        save_small(recipe_preview(loaded, PREVIEW_COUNT, columns=PREVIEW_COUNT).image,
+                   GALLERY / f"{stem}.png"),
+        f"`{rel}`: its first {PREVIEW_COUNT} images, masks tinted, boxes named, depth beside",
+        recipe, block_lines(recipe, ("object",)))]
+    if loaded.recipe.sweeps:
+        for sweep in recipe_sweep(loaded, []):
+            name = sweep.extra["sweep"]
+            sheet = thin(sweep, MAX_FRAMES).sheet()
+            out.append(Picture(save_small(sheet.image, GALLERY / f"{stem}-{name}.png"),
+                               f"`{rel}`: sweep `{name}`", recipe,
+                               block_lines(recipe, ("sweep",), name)))
+    return out
+
+
+def readme_section(pictures: list[Picture], model: Path) -> str:
+    lines = [START, "## Gallery", "",
+             "Made by `make gallery` from the recipes in `recipes/`, with the quick model "
+             f"(`{model.name}`); each picture is followed by the recipe lines that made it.", ""]
+    for p in pictures:
+        lines += [f"![{p.caption}]({p.path.relative_to(ROOT).as_posix()})", "", p.caption, "",
+                  "<details><summary>recipe lines</summary>", "", "```", p.lines, "```", "",
+                  "</details>", ""]
+    lines.append(END)
+    return "\n".join(lines)
+
+
+def write_readme(section: str) -> None:
+    text = README.read_text(encoding="utf-8")
+    if START in text and END in text:
+        head, rest = text.split(START, 1)
+        text = head + section + rest.split(END, 1)[1]
+    elif PLACEHOLDER in text:
+        text = text.replace(PLACEHOLDER, section)
+    else:
+        raise SystemExit(f"README.md has neither the gallery markers nor {PLACEHOLDER!r}")
+    tmp = README.with_name(".README.md.tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(README)
+
+
+def main(argv: list[str] | None = None) -> int:
+    p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    p.add_argument("--model", type=Path, help="model file (default: the demo's cached quick model)")
+    p.add_argument("--recipes", type=Path, default=ROOT / "recipes", help="folder of recipes")
+    p.add_argument("--no-readme", action="store_true", help="leave README.md as it is")
+    args = p.parse_args(argv)
+    logging.basicConfig(level=logging.INFO, format="make_gallery: %(message)s", stream=sys.stderr)
+    from genfield.commands.demo import demo_model
+
+    model, how = demo_model(str(args.model) if args.model else None, retrain=False)
+    log.info("%s: %s", how, model)
+    pictures: list[Picture] = []
+    for recipe in sorted(args.recipes.glob("*.gfr")):
+        log.info("rendering %s", recipe.name)
+        pictures += pictures_of(recipe, model)
+    total = sum(pic.path.stat().st_size for pic in pictures)
+    for pic in pictures:
+        log.info("%-40s %6.1f KB", pic.path.name, pic.path.stat().st_size / 1024)
+    log.info("%d pictures, %.0f KB in all", len(pictures), total / 1024)
+    if not args.no_readme:
+        write_readme(readme_section(pictures, model))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
