@@ -93,7 +93,7 @@ class Checker:
             weights = tuple(
                 self._param(f"{prefix}.w{i + 1}", w, "plain", text, node.pos,
                             bound=_AT_LEAST_0, per_object=per_object)
-                for i, (w, text) in enumerate(zip(node.weights, node.texts))
+                for i, (w, text) in enumerate(zip(node.weights, node.texts, strict=True))
             )
             return v.MixCode(node.names, weights, node.spherical, pos=node.pos,
                              name_pos=node.name_pos, texts=node.texts)
@@ -212,7 +212,8 @@ class Checker:
         a = [k for k in first if k in g.settings]
         b = [k for k in second if k in g.settings]
         if a and b:
-            raise error_at(f"{g.block.kind} sets {a[0]} and {b[0]}: {why}", g.settings[b[0]].pos)
+            who = g.block.label or g.block.kind
+            raise error_at(f"{who} sets {a[0]} and {b[0]}: {why}", g.settings[b[0]].pos)
 
     def _dataset(self, g: _Block | None) -> DatasetSpec:
         if g is None:

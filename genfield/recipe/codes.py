@@ -137,7 +137,7 @@ def _mix(node: v.MixCode, space: str, ctx: v.Context,
     if codebook is None:
         return None, expr
     rows = np.stack([_row(codebook, n, space, p) for n, p in
-                     zip(node.names, node.name_pos or (node.pos,) * len(node.names))])  # (n, D)
+                     zip(node.names, node.name_pos or (node.pos,) * len(node.names), strict=True)])  # (n, D)
     if not node.spherical:
         return weights @ rows, expr
     try:
@@ -180,7 +180,7 @@ def _check(node: Any, space: str, codebook: CodeBook, nodes: dict[str, Any]) -> 
             if name not in codebook.names:
                 raise unknown_code(name, codebook, node.pos)
     elif isinstance(node, v.MixCode):
-        for name, pos in zip(node.names, node.name_pos or (node.pos,) * len(node.names)):
+        for name, pos in zip(node.names, node.name_pos or (node.pos,) * len(node.names), strict=True):
             if name not in codebook.names:
                 raise unknown_code(name, codebook, pos)
     elif isinstance(node, v.ShiftCode):

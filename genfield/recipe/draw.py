@@ -209,7 +209,7 @@ def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
                 if c.per_object:
                     local[c.name] = v.draw(c.value, cctx)
 
-            def stream(purpose: str, b: int = b, k: int = k) -> v.Context:
+            def stream(purpose: str, b: int = b, k: int = k, local: dict = local) -> v.Context:
                 return v.Context(rng(seed, index, purpose, b, k), local, fixed)
 
             pose_ctx = stream("pose")

@@ -48,7 +48,7 @@ class Known:
 def _unify(a: str | None, b: str | None, pos: ast.Pos, what: str) -> str | None:
     if a is None or b is None or a == b:
         return a if b is None else b
-    raise error_at(f"{what} mixes {v.KIND_WORDS[a]} and {v.KIND_WORDS[b]}", pos)
+    raise error_at(f"{what} mixes {v.KIND_SHORT[a]} and {v.KIND_SHORT[b]}", pos)
 
 
 class Lowering:
@@ -143,7 +143,7 @@ class Lowering:
     def _vector(self, e: ast.Vector) -> Typed:
         parts = [self.infer(i) for i in e.items]
         unit = None
-        for item, part in zip(e.items, parts):
+        for item, part in zip(e.items, parts, strict=True):
             if part.type.kind != "number":
                 raise error_at(f"a vector's parts are numbers, got {format_expr(item)}", item.pos)
             unit = _unify(unit, part.type.unit, item.pos, "this vector")
@@ -165,7 +165,7 @@ class Lowering:
                 raise error_at(f"the range {format_expr(e)} is empty: its first end is above "
                                "its second", e.pos, hint="write the smaller end first")
             return Typed(Type("number", unit), v.Uniform(a, b))
-        for axis, (x, y) in enumerate(zip(a, b)):
+        for axis, (x, y) in enumerate(zip(a, b, strict=True)):
             if x > y:
                 raise error_at(f"the box {format_expr(e)} is empty along {v.AXES[axis]}: its "
                                "first corner is above its second", e.pos)
@@ -209,11 +209,11 @@ class Lowering:
         options = [self.infer(item.value) for item in e.items]
         kinds = {o.type.kind for o in options}
         if kinds <= {"text", "code"} and "code" in kinds:
-            nodes = tuple(self.as_code(o, i.value) for o, i in zip(options, e.items))
+            nodes = tuple(self.as_code(o, i.value) for o, i in zip(options, e.items, strict=True))
             return Typed(Type("code"), v.Pick(nodes, tuple(w / total for w in weights)))
         first = options[0].type
         unit = first.unit
-        for item, o in zip(e.items, options):
+        for item, o in zip(e.items, options, strict=True):
             if o.type.kind != first.kind or o.type.size != first.size:
                 raise error_at(f"the options of a pick must be alike: {format_expr(item.value)} "
                                f"is not like {format_expr(e.items[0].value)}", item.value.pos)
@@ -251,7 +251,7 @@ class Lowering:
             if isinstance(e, ast.Pick) and isinstance(typed.node, v.Pick):
                 # one named node per option, so that an unknown name is shown where it is
                 options = tuple(v.NamedCode(o, pos=i.value.pos)
-                                for o, i in zip(typed.node.options, e.items))
+                                for o, i in zip(typed.node.options, e.items, strict=True))
                 return v.Pick(options, typed.node.probabilities)
             return v.NamedCode(typed.node, pos=e.pos)
         if typed.type.kind == "code":
@@ -279,7 +279,7 @@ class Lowering:
             if got == "plain":
                 raise error_at(f"{what} needs {v.KIND_WORDS[unit]}: {text} has no unit", e.pos,
                                hint=f"write it with its unit, like {v.KIND_EXAMPLES[unit]}")
-            raise error_at(f"{what} needs {v.KIND_WORDS[unit]}, got {v.KIND_WORDS[got]} ({text})",
+            raise error_at(f"{what} needs {v.KIND_WORDS[unit]}; {text} is {v.KIND_SHORT[got]}",
                            e.pos)
         if whole and not typed.type.whole:
             hint = "for a range of whole numbers write 2 to 5" if isinstance(e, ast.Uniform) else None
@@ -309,6 +309,8 @@ class Lowering:
                 raise error_at(f"{what} takes one of {', '.join(slot.words)}, got {got}", e.pos,
                                hint=hint)
             return v.Fixed(e.name)
+        if slot.type == "bool" and isinstance(e, ast.Ref) and e.name not in self.constants:
+            raise error_at(f"{what} needs yes or no, got {e.name}", e.pos)
         typed = self.infer(e)
         t, text = typed.type, format_expr(e)
         if slot.type in ("code", "asset"):
@@ -327,8 +329,8 @@ class Lowering:
                     raise error_at(f"{what} needs {v.KIND_WORDS[slot.unit]}: {text} has no unit",
                                    e.pos, hint=f"write its parts with units, like "
                                    f"{v.KIND_EXAMPLES[slot.unit]}")
-                raise error_at(f"{what} needs {v.KIND_WORDS[slot.unit]}, got "
-                               f"{v.KIND_WORDS[t.unit]} ({text})", e.pos)
+                raise error_at(f"{what} needs {v.KIND_WORDS[slot.unit]}; {text} is "
+                               f"{v.KIND_SHORT[t.unit]}", e.pos)
             return typed.node
         expected = {"colour": "a colour like #a1b2c3", "text": 'a text in quotes',
                     "bool": "yes or no", "dims": "an image size like 160x120"}[slot.type]

@@ -43,7 +43,7 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
     random_constants: set[str] = set()
     drawn: list[tuple[bool, str]] = []  # constants that are not numbers: texts, colours, boxes
     for c in recipe.constants:
-        if is_random(c.value, random_constants):
+        if is_random(c.value, random_constants) and c.kind != "box":  # a box is a region
             random_constants.add(c.name)
             if c.name not in recipe.params and not any(
                     p.startswith(c.name + ".") for p in recipe.params):

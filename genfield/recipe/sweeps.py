@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 from genfield.errors import RecipeError
 from genfield.recipe import ast
+from genfield.recipe.formatter import format_expr
 from genfield.recipe.names import error_at, unknown
 from genfield.recipe.schema import BLOCKS, ParamInfo
 from genfield.recipe.spec import Recipe, SweepSpec
@@ -36,6 +37,9 @@ def _series(exprs: Sequence[ast.Expr], info: ParamInfo, lowering) -> tuple[float
     out: list[float] = []
 
     def one(e: ast.Expr) -> float:
+        if isinstance(e, ast.Uniform):
+            raise error_at(f"a sweep takes fixed values, got the range {format_expr(e)}", e.pos,
+                           hint=f"for a series write {format_expr(e)} steps N")
         node = lowering.fit_number(e, info.unit, info.name, info.bound, whole=info.whole, fixed=True)
         return lowering.span(node)[0]
 

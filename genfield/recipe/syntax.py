@@ -55,6 +55,7 @@ _EXAMPLES: dict[str, list[str]] = {
     "range_end": ["a = 1..\n", "camera {\n  fov 1deg..\n}\n"],
     "list_not_closed": ["a = pick [1, 2\nb = 3\n", "camera {\n  at pick [1, 2\n}\n"],
     "stray_close": ["}\n", "a = 3\n}\n"],
+    "vector_line": ["a = (1cm,\n 2cm)\n", "camera {\n  at (1cm,\n 2cm)\n}\n"],
 }
 _MESSAGES = {
     "colon": "a setting is written 'name value' without ':'",
@@ -67,6 +68,7 @@ _MESSAGES = {
     "range_end": "a range needs its second end, like 1cm..3cm",
     "list_not_closed": "a '[' is not closed with ']'",
     "stray_close": "this '}' closes no block",
+    "vector_line": "a vector's parts are written on one line",
 }
 
 
@@ -146,7 +148,16 @@ def _bad_token(err: UnexpectedInput, pos: Pos, lines: list[str], file: str) -> R
     label = err.match_examples(lark_parser().parse, _EXAMPLES, token_type_match_fallback=True,
                                use_accepts=False)
     word = str(token)
-    if token.type not in ("NAME", "$END", "_NL") and word.isalpha() and "NAME" in expected:
+    if token.type in _CLOSERS:
+        opened = _open_bracket(lines, err.line, err.column)  # type: ignore[attr-defined]
+        if opened is None and token.type != "RBRACE":
+            return _error(f"this '{word}' has no '{_OPENERS[_CLOSERS[token.type]]}' to close", pos)
+        if opened is not None and opened[0] != _CLOSERS[token.type]:
+            want = {"LPAR": ")", "LSQB": "]", "LBRACE": "}"}[opened[0]]
+            return _error(f"this '{word}' does not match the '{_OPENERS[opened[0]]}' opened at "
+                          f"{opened[1]}:{opened[2]}", pos, hint=f"close it with '{want}'")
+    only_a_name = "NAME" in expected and not expected & {"NUMBER", "STRING"}
+    if token.type not in ("NAME", "$END", "_NL") and word.isalpha() and only_a_name:
         return _error(f"'{word}' is a reserved word of the recipe language", pos,
                       hint="choose another name")
     if label == "after_number" and token.type == "NAME":
@@ -195,6 +206,27 @@ def _bad_characters(err: UnexpectedCharacters, lines: list[str], file: str) -> R
     return _error(f"unexpected character {shown}", pos,
                   hint="a recipe holds names, numbers with units, \"texts\", #colours, "
                   "( ) [ ] { } , : = and .. ; a comment starts with '# '")
+
+
+_CLOSERS = {"RPAR": "LPAR", "RSQB": "LSQB", "RBRACE": "LBRACE"}
+_OPENERS = {"LPAR": "(", "LSQB": "[", "LBRACE": "{"}
+
+
+def _open_bracket(lines: list[str], line: int, column: int) -> tuple[str, int, int] | None:
+    """The innermost bracket still open just before (line, column)."""
+    from genfield.recipe.parser import lark_parser
+
+    text = "\n".join(lines[: line - 1] + [lines[line - 1][: column - 1]]) + "\n"
+    stack: list[tuple[str, int, int]] = []
+    try:
+        for tok in lark_parser().lex(text):
+            if tok.type in _OPENERS:
+                stack.append((tok.type, tok.line, tok.column))
+            elif tok.type in _CLOSERS and stack:
+                stack.pop()
+    except UnexpectedInput:
+        return None
+    return stack[-1] if stack else None
 
 
 def _unclosed(text: str, file: str, lines: list[str]) -> RecipeError | None:

@@ -36,6 +36,7 @@ KIND_WORDS = {
     "pixels": "a number of pixels (px)",
     "plain": "a plain number",
 }
+KIND_SHORT = {"length": "a length", "angle": "an angle", "pixels": "pixels", "plain": "a plain number"}
 KIND_EXAMPLES = {"length": "5cm", "angle": "30deg", "pixels": "200px", "plain": "0.5"}
 
 
@@ -218,10 +219,10 @@ def draw(node: Any, ctx: Context) -> Any:
         return float(ctx.rng.uniform(node.lo, node.hi))
     if isinstance(node, Box):
         u = ctx.rng.random(len(node.lo))  # (axes,)
-        return tuple(float(lo + (hi - lo) * t) for lo, hi, t in zip(node.lo, node.hi, u))
+        return tuple(float(lo + (hi - lo) * t) for lo, hi, t in zip(node.lo, node.hi, u, strict=True))
     if isinstance(node, Blend):
         t = float(ctx.rng.random())
-        return tuple(lo + (hi - lo) * t for lo, hi in zip(node.lo, node.hi))
+        return tuple(lo + (hi - lo) * t for lo, hi in zip(node.lo, node.hi, strict=True))
     if isinstance(node, Whole):
         return int(ctx.rng.integers(node.lo, node.hi, endpoint=True))
     if isinstance(node, Normal):
@@ -294,7 +295,7 @@ def is_random(node: Any, random_constants: set[str]) -> bool:
     if isinstance(node, Uniform):
         return node.hi > node.lo
     if isinstance(node, Box):
-        return any(h > lo for lo, h in zip(node.lo, node.hi))
+        return any(h > lo for lo, h in zip(node.lo, node.hi, strict=True))
     if isinstance(node, Blend):
         return node.lo != node.hi
     if isinstance(node, Whole):
@@ -302,7 +303,7 @@ def is_random(node: Any, random_constants: set[str]) -> bool:
     if isinstance(node, Normal):
         return node.sd > 0 and (node.lo is None or node.hi > node.lo)  # type: ignore[operator]
     if isinstance(node, Pick):
-        live = [o for o, p in zip(node.options, node.probabilities) if p > 0]
+        live = [o for o, p in zip(node.options, node.probabilities, strict=True) if p > 0]
         return len(set(map(repr, live))) > 1 or any(is_random(o, random_constants) for o in live)
     if isinstance(node, ConstantRef):
         return node.name in random_constants
