@@ -8,10 +8,12 @@ so the mesh is the network's own surface, not a baked grid's.
 from __future__ import annotations
 
 import logging
+import re
 from typing import Protocol
 
 import numpy as np
 
+from genfield.errors import UsageError
 from genfield.mesh.export import ScenePart, floor_part
 from genfield.mesh.extract import ExtractionStats, Mesh, extract_mesh
 from genfield.scene import Scene
@@ -44,6 +46,28 @@ def variant_mesh(model: FieldModel, shape: np.ndarray, appearance: np.ndarray | 
 
     return extract_mesh(occupancy, None if appearance is None else colour, resolution=resolution,
                         coarse=coarse, min_component_fraction=min_part, progress=progress)
+
+
+_BUILTIN = re.compile(r"builtin:(?P<family>[\w-]+):seed=(?P<seed>\d+):index=(?P<index>\d+)")
+
+
+def training_half_extent(codebook, sources: tuple[str, ...], shape: np.ndarray) -> tuple[str, float]:
+    """(name, metres) of the training asset whose shape code is nearest to ``shape`` (Ds,).
+
+    The model file records where each code came from, not its size, so a built-in asset is
+    rebuilt from its source (``builtin:<family>:seed=<s>:index=<i>``, cheap and exact); for a
+    code learned from a mesh file the size is not known and a UsageError asks for it.
+    """
+    from genfield.assets import make_builtin
+
+    row = int(np.argmin(np.linalg.norm(codebook.shape - np.asarray(shape)[None, :], axis=1)))
+    name, source = codebook.names[row], sources[row]
+    match = _BUILTIN.fullmatch(source)
+    if match is None:
+        raise UsageError(f"the model does not record the real size of {name!r} (from {source})",
+                         hint="give it in metres: --real-size HALF_EXTENT")
+    asset = make_builtin(match["family"], int(match["index"]), int(match["seed"]))
+    return name, asset.metric_half_extent
 
 
 def part_name(object_id: int, label: str) -> str:
