@@ -19,6 +19,11 @@ _PUBLIC: dict[str, str] = {
     "SceneDataset": "genfield.dataset.reader",
     "render_scene": "genfield.render.renderer",
     "RenderOptions": "genfield.render.options",
+    "extract_mesh": "genfield.mesh.extract",
+    "variant_mesh": "genfield.mesh.from_model",
+    "scene_parts": "genfield.mesh.from_model",
+    "write_mesh": "genfield.mesh.export",
+    "write_scene": "genfield.mesh.export",
 }
 
 __all__ = ["__version__", *_PUBLIC]
