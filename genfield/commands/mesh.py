@@ -1,15 +1,11 @@
-"""Export the mesh of a code pair, or of a whole concrete scene of a recipe.
-
-  genfield mesh MODEL --shape EXPR [--appearance EXPR] [--resolution R] [--real-size] --out F
-  genfield mesh RECIPE --index I [--floor] --out scene.glb
-
-EXPR is a code expression of the recipe language: a code name (quotes optional), prior
-[temperature t] (drawn with --seed), lerp ["a": w, "b": w], slerp [...], CODE shift dim k by v,
-or an explicit vector. Without --appearance, --shape gives both codes (a prior draw keeps its
-shape and appearance together, as 'asset' does in a recipe). F ends in .glb, .ply or .obj;
-a scene is always one .glb with a node per object named ID-LABEL. PLY/OBJ colours are sRGB,
-GLB colours linear (the glTF rule). Meshes are in the object cube [-1, 1]^3 unless
---real-size makes them metres.
+"""Export the mesh of a code pair (SOURCE a model, with --shape), or of a whole concrete scene
+of a recipe (SOURCE a .gfr, with --index). EXPR is a code expression of the recipe language:
+a code name (quotes optional), prior [temperature t] (drawn with --seed), lerp ["a": w, "b": w],
+slerp [...], CODE shift dim k by v, or an explicit vector. Without --appearance, --shape gives
+both codes, as 'asset' does in a recipe. FILE ends in .glb, .ply or .obj; a scene is one .glb
+with a node per object named ID-LABEL, posed in metres. PLY and OBJ colours are sRGB, GLB
+colours linear (the glTF rule). A single mesh is in the object cube [-1, 1]^3 unless
+--real-size makes it metres.
 """
 
 from __future__ import annotations
@@ -43,8 +39,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--resolution", type=int, default=128, metavar="R",
                    help="cells per axis of the finest grid, COARSE times a power of two (default 128)")
     p.add_argument("--coarse", type=int, default=32, metavar="C",
-                   help="cells per axis of the first grid; parts thinner than 2/C can be missed "
-                        "(default 32)")
+                   help="cells per axis of the first grid; a detached part that falls between "
+                        "its points (2/C apart) can be missed (default 32)")
     p.add_argument("--min-part", type=_fraction, default=0.0, metavar="F",
                    help="drop floating pieces under this fraction of the volume (default 0: keep all)")
     p.add_argument("--threads", type=int, metavar="N", help="torch threads (default: all cores)")
