@@ -302,6 +302,8 @@ class Checker:
         self._exclusive(g, ("at",), ("inside",), "give a position or a region, not both")
         count = self._number(g, "count", name, 1)
         codes = self._codes(g, name)
+        pose = {key: self._number(g, key, name, default, per_object=True)
+                for key, default in (("scale", 0.05), ("yaw", 0.0), ("pitch", 0.0), ("roll", 0.0))}
         on_floor = "on" in g.settings
         at = self._vector(g, "at", name, None, per_object=True)
         for key in ("at", "inside"):
@@ -326,10 +328,7 @@ class Checker:
             name=name, label=label,
             count=count,
             joint=codes[0], shape=codes[1], appearance=codes[2],
-            scale=self._number(g, "scale", name, 0.05, per_object=True),
-            yaw=self._number(g, "yaw", name, 0.0, per_object=True),
-            pitch=self._number(g, "pitch", name, 0.0, per_object=True),
-            roll=self._number(g, "roll", name, 0.0, per_object=True),
+            scale=pose["scale"], yaw=pose["yaw"], pitch=pose["pitch"], roll=pose["roll"],
             at=at, inside=inside, on_floor=on_floor,
             # constants stay put between placement tries; only draws written in 'at' move
             position_random=inside is not None or (at is not None and v.is_random(at, set())),

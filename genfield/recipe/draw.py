@@ -6,11 +6,12 @@ block's count, and per object instance (block b, instance k) its constants, pose
 placement. Image i is therefore the same on every run, whichever other images are drawn
 and in whatever order, and an override changes only the number it overrides.
 
-Placement: an object on the floor gets z = s (|R20| + |R21| + |R22|), which puts the lowest
-corner of its rotated cube [-1, 1]^3 on z = 0; ``inside`` draws the centre uniformly in the
-region shrunk by the bounding radius sqrt(3) s, so the bounding sphere's footprint stays in
-it; with ``apart`` (the default) a placement is rejected while its bounding sphere comes
-nearer than ``gap`` to one already placed, up to ``tries`` times.
+Placement: the rotated object cube s R [-1, 1]^3 reaches s (|Ri0| + |Ri1| + |Ri2|) from its
+centre along world axis i. An object on the floor gets that reach along z as its height,
+which puts the cube's lowest corner on z = 0; ``inside`` draws the centre uniformly where
+the cube's axis-aligned box stays in the region; with ``apart`` (the default) a placement is
+rejected while its bounding sphere (radius sqrt(3) s) comes nearer than ``gap`` to one
+already placed, up to ``tries`` times.
 """
 
 from __future__ import annotations
@@ -29,10 +30,20 @@ from genfield.recipe.codes import resolve
 from genfield.recipe.names import error_at
 from genfield.recipe.spec import ObjectSpec, Recipe
 from genfield.render.camera import look_at, make_camera, orbit_position
-from genfield.scene import Backdrop, Camera, CodeChoice, Light, Pose, Scene, SceneObject
+from genfield.scene import (
+    Backdrop,
+    Camera,
+    CodeChoice,
+    Light,
+    Pose,
+    Scene,
+    SceneObject,
+    rotation_from_ypr,
+)
 from genfield.seeds import rng
 
 SQRT3 = math.sqrt(3.0)
+ROUNDS = 8  # fresh starts of a layout before placement gives up
 
 
 def check_overrides(recipe: Recipe, overrides: Mapping[str, float]) -> dict[str, float]:
@@ -149,11 +160,23 @@ def _backdrop(recipe: Recipe, ctx: v.Context) -> Backdrop:
     return Backdrop(top_srgb=top, bottom_srgb=bottom, floor=True, floor_srgb=_colour(spec.floor, ctx))
 
 
-@dataclass(frozen=True)
-class _Placed:
-    centre: np.ndarray  # (3,)
-    radius: float
+@dataclass
+class _Pending:
+    """An object instance drawn but not yet placed."""
+
+    obj: ObjectSpec
     name: str  # "washer #2"
+    scale: float
+    ypr: tuple[float, float, float]
+    rot: np.ndarray  # (3, 3)
+    shape: CodeChoice
+    appearance: CodeChoice
+    place: v.Context  # its own placement stream
+    centre: np.ndarray | None = None  # (3,) once placed
+
+    @property
+    def radius(self) -> float:
+        return SQRT3 * self.scale  # the bounding sphere of the cube s [-1, 1]^3
 
 
 def _codes(obj: ObjectSpec, ctx: v.Context, codebook: CodeBook | None) -> tuple[CodeChoice, CodeChoice]:
@@ -173,7 +196,7 @@ def _codes(obj: ObjectSpec, ctx: v.Context, codebook: CodeBook | None) -> tuple[
 
 def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> np.ndarray:
     """One candidate centre (3,) for an object of this scale and rotation."""
-    radius = SQRT3 * scale
+    half = scale * np.abs(rot).sum(axis=1)  # (3,) half-size of the rotated cube's bounding box
     axes = 2 if obj.on_floor else 3
     if obj.at is not None:
         xyz = list(v.draw(obj.at, ctx))
@@ -181,10 +204,10 @@ def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> n
         lo, hi = obj.inside
         xyz = []
         for axis in range(axes):
-            a, b = lo[axis] + radius, hi[axis] - radius
+            a, b = lo[axis] + half[axis], hi[axis] - half[axis]
             if a > b:
-                raise error_at(f"{obj.name} (bounding radius {v.show(radius, 'length')}) does not fit "
-                               f"inside its region along {v.AXES[axis]} "
+                raise error_at(f"{obj.name} ({v.show(2 * half[axis], 'length')} across along "
+                               f"{v.AXES[axis]}) does not fit inside its region "
                                f"({v.show(lo[axis], 'length')}..{v.show(hi[axis], 'length')})",
                                obj.pos, hint="make the region larger or the object smaller")
             xyz.append(float(ctx.rng.uniform(a, b)))
@@ -197,9 +220,7 @@ def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> n
 
 def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
              env: dict[str, Any], fixed: dict[str, float], gap: float) -> list[SceneObject]:
-    placed: list[_Placed] = []
-    out: list[SceneObject] = []
-    layout = recipe.layout
+    pending: list[_Pending] = []
     for b, obj in enumerate(recipe.objects):
         count = int(v.draw(obj.count, v.Context(rng(seed, index, "count", b), env, fixed)))
         for k in range(count):
@@ -208,34 +229,49 @@ def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
             for c in recipe.constants:
                 if c.per_object:
                     local[c.name] = v.draw(c.value, cctx)
-
-            def stream(purpose: str, b: int = b, k: int = k, local: dict = local) -> v.Context:
-                return v.Context(rng(seed, index, purpose, b, k), local, fixed)
-
-            pose_ctx = stream("pose")
+            pose_ctx = v.Context(rng(seed, index, "pose", b, k), local, fixed)
             scale = float(v.draw(obj.scale, pose_ctx))
-            yaw, pitch, roll = (float(v.draw(n, pose_ctx)) for n in (obj.yaw, obj.pitch, obj.roll))
-            pose = Pose.from_ypr((0.0, 0.0, 0.0), yaw, pitch, roll, scale)
-            shape, appearance = _codes(obj, stream("codes"), codebook)
-            place_ctx = stream("place")
-            radius = SQRT3 * scale
-            tries = layout.tries if (obj.position_random and layout.apart) else 1
-            name = f"{obj.name} #{k + 1}"
+            ypr = tuple(float(v.draw(n, pose_ctx)) for n in (obj.yaw, obj.pitch, obj.roll))
+            shape, appearance = _codes(obj, v.Context(rng(seed, index, "codes", b, k), local,
+                                                      fixed), codebook)
+            pending.append(_Pending(obj, f"{obj.name} #{k + 1}", scale, ypr,  # type: ignore[arg-type]
+                                    rotation_from_ypr(*ypr), shape, appearance,
+                                    v.Context(rng(seed, index, "place", b, k), local, fixed)))
+    _place(pending, recipe, gap)
+    return [
+        SceneObject(id=i + 1, label=p.obj.label, shape=p.shape, appearance=p.appearance,
+                    pose=Pose.from_ypr(tuple(p.centre), *p.ypr, p.scale))  # type: ignore[arg-type]
+        for i, p in enumerate(pending)
+    ]
+
+
+def _place(pending: list[_Pending], recipe: Recipe, gap: float) -> None:
+    """Rejection sampling: the largest objects first, ``tries`` candidates each, and up to
+    ROUNDS fresh starts of the whole layout before giving up with the objects' names."""
+    layout = recipe.layout
+    order = sorted(pending, key=lambda p: -p.radius)  # stable: ties keep the recipe's order
+    hits: list[str] = []
+    rounds = ROUNDS if layout.apart and any(p.obj.position_random for p in pending) else 1
+    for _ in range(rounds):
+        placed: list[_Pending] = []
+        for p in order:
+            tries = layout.tries if (p.obj.position_random and layout.apart) else 1
             for _ in range(tries):
-                centre = _centre(obj, scale, pose.R, place_ctx)
-                hits = [p.name for p in placed if layout.apart and
-                        float(np.linalg.norm(centre - p.centre)) < radius + p.radius + gap]
+                p.centre = _centre(p.obj, p.scale, p.rot, p.place)
+                hits = [q.name for q in placed if layout.apart and float(
+                    np.linalg.norm(p.centre - q.centre)) < p.radius + q.radius + gap]
                 if not hits:
+                    placed.append(p)
                     break
             else:
-                raise error_at(
-                    f"cannot place {name} apart from {', '.join(hits)}: its bounding sphere "
-                    f"overlaps in all {tries} tries", obj.pos,
-                    hint="give the objects more room (a larger region), make them smaller or "
-                    "fewer, or raise layout tries")
-            placed.append(_Placed(centre, radius, name))
-            out.append(SceneObject(
-                id=len(out) + 1, label=obj.label, shape=shape, appearance=appearance,
-                pose=Pose.from_ypr(tuple(centre), yaw, pitch, roll, scale),  # type: ignore[arg-type]
-            ))
-    return out
+                failed = p
+                break
+        else:
+            return
+    how = (f"in all {tries} tries of each of {rounds} starts" if failed.obj.position_random
+           else "at its fixed position")
+    raise error_at(
+        f"cannot place {failed.name} apart from {', '.join(hits)}: its bounding sphere overlaps "
+        f"{how}",
+        failed.obj.pos, hint="give the objects more room (a larger region), make them smaller "
+        "or fewer, or raise layout tries")
