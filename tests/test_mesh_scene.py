@@ -68,5 +68,5 @@ def test_floor_is_left_out_unless_asked():
 
 
 def test_min_part_must_be_a_fraction_below_one():
-    with pytest.raises(ValueError, match="min_fraction"):
+    with pytest.raises(ValueError, match="min_component_fraction"):
         variant_mesh(SphereModel(), np.array([0.5]), None, resolution=16, coarse=8, min_part=1.0)

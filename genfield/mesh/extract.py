@@ -72,7 +72,7 @@ def mesh_from_grid(grid: OccupancyGrid) -> Mesh:
     verts, faces, _, _ = marching_cubes(values, level=LEVEL, spacing=(h, h, h))
     verts = verts - (1.0 + h)  # padded index 1 is the grid point at -1
     # scikit-image winds the triangles clockwise seen from outside for an x-first ("ij")
-    # volume; reversing makes them counter-clockwise, the glTF/OBJ/PLY and trimesh convention
+    # volume (measured: negative trimesh volume on a sphere); reversing makes them counter-clockwise, the glTF/OBJ/PLY and trimesh convention
     # (a closed mesh then has positive trimesh volume, which the tests check).
     faces = np.ascontiguousarray(faces[:, ::-1], dtype=np.int64)
     verts = verts.astype(np.float32)
@@ -110,12 +110,15 @@ def extract_mesh(
         occupancy_fn: (N, 3) float32 object-frame points -> (N,) occupancy in [0, 1].
         colour_fn: (N, 3) points -> (N, 3) linear RGB, queried at the vertices; None for none.
         resolution: cells per axis of the finest grid, ``coarse * 2^k``.
-        coarse: cells per axis of the first grid; every part must cross one of its edges.
+        coarse: cells per axis of the first grid; a detached part is found when it crosses
+            one of its edges (``genfield.mesh.refine``).
         min_component_fraction: drop pieces enclosing less than this fraction of the total
             volume (0 keeps everything).
         chunk: points per field call.
         progress: progress bar on stderr.
     """
+    if not 0.0 <= min_component_fraction < 1.0:
+        raise ValueError(f"min_component_fraction must be in [0, 1), got {min_component_fraction}")
     start = time.perf_counter()
     grid = refine_occupancy(occupancy_fn, resolution, coarse, chunk=chunk, progress=progress)
     mesh = mesh_from_grid(grid)

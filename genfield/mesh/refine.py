@@ -54,7 +54,7 @@ class OccupancyGrid:
 
     values: (R + 1, R + 1, R + 1) float32 occupancy, evaluated or interpolated.
     evaluated: (R + 1, R + 1, R + 1) bool, where the field was actually queried.
-    points_evaluated: how many field queries were made in all levels (>= evaluated.sum()).
+    points_evaluated: field queries made over all levels (= evaluated.sum(): none is repeated).
     """
 
     values: np.ndarray
