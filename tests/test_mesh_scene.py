@@ -70,3 +70,19 @@ def test_floor_is_left_out_unless_asked():
 def test_min_part_must_be_a_fraction_below_one():
     with pytest.raises(ValueError, match="min_component_fraction"):
         variant_mesh(SphereModel(), np.array([0.5]), None, resolution=16, coarse=8, min_part=1.0)
+
+
+def test_real_size_is_the_nearest_training_assets():
+    from genfield.assets import make_builtin
+    from genfield.errors import UsageError
+    from genfield.mesh.from_model import training_half_extent
+
+    class Book:
+        names = ("bowl-0002", "part")
+        shape = np.array([[0.0, 1.0], [1.0, 0.0]], np.float32)
+
+    sources = ("builtin:bowl:seed=0:index=2", "/data/part.obj")
+    name, metres = training_half_extent(Book, sources, np.array([0.1, 0.8]))
+    assert name == "bowl-0002" and metres == make_builtin("bowl", 2).metric_half_extent
+    with pytest.raises(UsageError, match="real size of 'part'"):
+        training_half_extent(Book, sources, np.array([0.9, 0.1]))
