@@ -19,7 +19,7 @@ from collections.abc import Callable
 from dataclasses import asdict, dataclass
 
 # Modules whose import registers cases. Add a package's benchmarks module here.
-CASE_MODULES: tuple[str, ...] = ("genfield.bench", "genfield.mesh.benchmarks")
+CASE_MODULES: tuple[str, ...] = ("genfield.bench", "genfield.mesh.benchmarks", "genfield.assets.benchmarks")
 
 
 @dataclass(frozen=True)

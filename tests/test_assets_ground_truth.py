@@ -59,7 +59,8 @@ def test_cache_round_trip_and_keys(tmp_path):
     path = gt_module.cache_path(a, 4000, 3)
     assert path.exists() and path.parent.name == "ground-truth"
     with np.load(path, allow_pickle=False) as z:  # plain arrays only
-        assert set(z.files) == {"points", "occupancy", "surface_points", "surface_colour", "meta"}
+        assert set(z.files) == {"samples", "surface", "meta"}
+        assert z["samples"].dtype == np.float32 and z["samples"].shape == (4000, 4)
     again = sample_ground_truth(a, 4000, seed=3)
     for name in ("points", "occupancy", "surface_points", "surface_colour"):
         assert np.array_equal(getattr(first, name), getattr(again, name))
@@ -76,7 +77,7 @@ def test_corrupt_cache_entry_is_recomputed():
     gt = sample_ground_truth(a, 2000, seed=0)
     assert gt.points.shape == (2000, 3)
     with np.load(path, allow_pickle=False) as z:
-        assert z["points"].shape == (2000, 3)
+        assert z["samples"].shape == (2000, 4)
 
 
 def test_pool_and_sequential_give_the_same_samples():
