@@ -24,6 +24,13 @@ _PUBLIC: dict[str, str] = {
     "scene_parts": "genfield.mesh.from_model",
     "write_mesh": "genfield.mesh.export",
     "write_scene": "genfield.mesh.export",
+    "Asset": "genfield.assets.asset",
+    "builtin_families": "genfield.assets.families",
+    "make_builtin": "genfield.assets.families",
+    "builtin_assets": "genfield.assets.families",
+    "load_mesh_assets": "genfield.assets.meshes",
+    "sample_ground_truth": "genfield.assets.ground_truth",
+    "trace_reference": "genfield.render.reference",
 }
 
 __all__ = ["__version__", *_PUBLIC]

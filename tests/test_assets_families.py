@@ -130,3 +130,12 @@ def test_bad_family_and_numbers_raise_source_errors():
         make_builtin("washer", -1)
     with pytest.raises(SourceError, match="count"):
         builtin_assets({"washer": -2})
+
+
+def test_train_list_families_prints_the_table(capsys):
+    from genfield.cli import main
+
+    assert main(["train", "--list-families"]) == 0
+    out = capsys.readouterr().out
+    assert out.strip() == describe_families().strip()
+    assert "hex_nut (workshop)" in out and "bottle (kitchen)" in out

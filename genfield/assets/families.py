@@ -266,7 +266,8 @@ def describe_families() -> str:
     for fam in FAMILIES:
         lines.append(f"{fam.name} ({fam.scenario}): {fam.description}")
         for p in fam.parameters:
-            lines.append(f"  {p.name:24s} {p.low:g} .. {p.high:g} {p.unit:5s}  {p.description}")
+            span = f"{p.low:g} .. {p.high:g}"
+            lines.append(f"  {p.name:24s} {span:>13s} {p.unit:5s}  {p.description}")
     lines += [
         "",
         "every family: normalised into [-1, 1]^3 (largest half-extent 0.9), upright, centred;",
