@@ -16,12 +16,15 @@ Distance functions follow Hart 1996 ("Sphere tracing", Visual Computer 12): sphe
 
 from __future__ import annotations
 
+import hashlib
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
 from genfield.colour import srgb_to_linear
+from genfield.errors import SourceError
 from genfield.field.grid import FieldGrid, density_from_occupancy, grid_points, occupancy_from_sdf
 
 SdfFn = Callable[[np.ndarray], np.ndarray]  # (N, 3) object frame -> (N,) signed distance, < 0 inside
@@ -103,6 +106,24 @@ class AnalyticModel:
         self.edge = float(edge)
         if identity is not None:
             self.identity = identity
+
+    @classmethod
+    def from_assets(cls, assets: Sequence[Any], *, edge: float = DEFAULT_EDGE) -> AnalyticModel:
+        """The built-in (analytic) ``genfield.assets.Asset`` s as shapes, in order.
+
+        The identity hashes the assets' content and the edge, so baked grids of the same
+        assets are found again on disk.
+        """
+        shapes = []
+        for a in assets:
+            if not a.analytic:
+                raise SourceError("an imported mesh has no signed distance for an AnalyticModel",
+                                  where=a.source, hint="use built-in family assets")
+            shapes.append(AnalyticShape(a.name, a.sdf, a.colour_srgb))
+        digest = hashlib.sha256(f"edge={edge!r}".encode())
+        for a in assets:
+            digest.update(a.content_hash.encode("ascii"))
+        return cls(shapes, edge=edge, identity=f"analytic-{digest.hexdigest()[:32]}")
 
     @property
     def shape_dim(self) -> int:

@@ -13,15 +13,18 @@ per cell, so rendered plainly its outer fringe (o ~ 0.1) would already be opaque
 silhouette would grow by most of a cell. With SHARPNESS 1 this is sigma = SIGMA_MAX * o.
 Per object it keeps
 
-- the density volume (1 channel, sampled at every ray step),
+- the density volume (1 channel, sampled where a step's fine cell is neither empty nor full),
 - a feature volume (albedo and the density gradient, 6 channels, sampled only where a step
   carries visible weight),
-- a coarse state grid for empty-space skipping: cells of ``STRIDE`` fine cells marked empty,
-  mixed or solid. A cell is *empty* when no fine point on or inside it has an occupancy
-  that reconstructs to any density (interpolation never exceeds its corners), dilated by
-  one cell, so that a whole coarse step of a ray can be judged from one point; it is
-  *solid* when every such point reconstructs to SIGMA_MAX and so do all 26 neighbours, so
-  that a ray at a solid cell has at least one coarse cell of opaque matter ahead of it.
+- a fine state per grid cell: *empty* when its 8 corners all reconstruct to 0 (interpolation
+  never leaves the range of the corners, so the whole cell has no density), *full* when they
+  all reconstruct to SIGMA_MAX (the whole cell is opaque at SIGMA_MAX), *deep* when every
+  cell within ``deep_cells`` (Chebyshev distance) is full, so that a ray at a point of a deep
+  cell meets opaque matter for at least ``deep_cells`` cells ahead (optical depth
+  SIGMA_MAX * deep_cells * cell >= TAU_DEEP), else *mixed*;
+- a coarse grid for empty-space skipping: cells of ``STRIDE`` fine cells, *occupied* when any
+  fine cell in them is not empty, dilated by one coarse cell, so that a whole coarse step of
+  a ray (shorter than a coarse cell) can be judged from its first point.
 """
 
 from __future__ import annotations
@@ -37,8 +40,9 @@ from genfield.field.grid import SIGMA_MAX, FieldGrid
 SHARPNESS = 8.0  # slope of the density ramp about o = 1/2 (module doc); the ramp is 1/8 as wide
 EMPTY_OCCUPANCY = 0.5 - 0.5 / SHARPNESS  # at or below: no density at all
 SOLID_OCCUPANCY = 0.5 + 0.5 / SHARPNESS  # at or above: SIGMA_MAX
-STRIDE = 4  # fine cells per coarse cell along each axis; coarse ray steps are 4 fine steps
-EMPTY, MIXED, SOLID = 0, 1, 2  # coarse cell states
+STRIDE = 4  # fine cells per coarse cell along each axis
+EMPTY, MIXED, FULL, DEEP = 0, 1, 2, 3  # fine cell states (module doc)
+TAU_DEEP = 12.0  # optical depth ahead of a deep cell at least (transmittance <= 6e-6)
 
 
 @dataclass(frozen=True)
@@ -46,13 +50,17 @@ class RenderGrid:
     """One object's field, prepared for the marcher.
 
     density: (1, 1, R, R, R) float32 torch volume (axes z, y, x), SIGMA_MAX * occupancy
-        (before ``reconstruct``). features: (1, 6, R, R, R): linear albedo, then the density gradient
-        d(sigma)/d(x, y, z) per object unit squared. coarse: (C, C, C) int8 states, ``indexing="ij"``.
+        (before ``reconstruct``). features: (1, 6, R, R, R): linear albedo, then the density
+        gradient d(sigma)/d(x, y, z) per object unit squared. fine: ((R - 1)^3,) int8 cell
+        states, flattened from ``indexing="ij"``; coarse: (C, C, C) bool occupied cells;
+        deep_cells: the Chebyshev radius of full cells around a deep one.
     """
 
     density: torch.Tensor
     features: torch.Tensor
+    fine: np.ndarray
     coarse: np.ndarray
+    deep_cells: int
 
     @property
     def resolution(self) -> int:
@@ -70,33 +78,40 @@ class RenderGrid:
 
     @property
     def nbytes(self) -> int:
-        return int(self.density.nbytes + self.features.nbytes + self.coarse.nbytes)
+        return int(self.density.nbytes + self.features.nbytes + self.fine.nbytes + self.coarse.nbytes)
 
     @property
     def is_empty(self) -> bool:
         return not bool(np.any(self.coarse))
 
 
-def _pooled(values: np.ndarray, cells: int, reduce) -> np.ndarray:
-    """(C, C, C) reduction over the closed coarse cells (STRIDE + 1 points a side) of a (R, R, R) grid."""
-    size = cells * STRIDE + 1
-    pad = size - values.shape[0]
-    v = np.pad(values, [(0, pad)] * 3, mode="edge") if pad > 0 else values
-    windows = np.lib.stride_tricks.sliding_window_view(v, (STRIDE + 1,) * 3)[::STRIDE, ::STRIDE, ::STRIDE]
-    return reduce(windows, axis=(-3, -2, -1))  # (C, C, C)
+def _corner_reduce(values: np.ndarray, reduce) -> np.ndarray:
+    """(R - 1)^3 reduction over the 8 corners of every cell of a (R, R, R) grid."""
+    r = values.shape[0] - 1
+    corners = [values[i : i + r, j : j + r, k : k + r] for i in (0, 1) for j in (0, 1) for k in (0, 1)]
+    return reduce.reduce(corners)
 
 
-def coarse_states(density: np.ndarray) -> np.ndarray:
-    """The (C, C, C) int8 empty/mixed/solid states of a (R, R, R) density grid (module doc)."""
-    cells = -(-(density.shape[0] - 1) // STRIDE)  # ceil((R - 1) / STRIDE)
-    ball = np.ones((3, 3, 3), bool)
-    occupied = ndimage.binary_dilation(_pooled(density, cells, np.max) > EMPTY_OCCUPANCY * SIGMA_MAX, ball)
-    # border_value=0: a cell on the cube's face is never solid, the ray may leave there
-    solid = ndimage.binary_erosion(_pooled(density, cells, np.min) >= SOLID_OCCUPANCY * SIGMA_MAX,
-                                   ball, border_value=0)
-    states = np.where(occupied, MIXED, EMPTY).astype(np.int8)
-    states[solid] = SOLID
-    return states
+def deep_radius(resolution: int) -> int:
+    """Cells of full matter a deep cell guarantees ahead: SIGMA_MAX * n * cell >= TAU_DEEP."""
+    return max(1, int(np.ceil(TAU_DEEP / (SIGMA_MAX * 2.0 / (resolution - 1)))))
+
+
+def cell_states(density: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Fine states ((R - 1)^3,) int8 and coarse occupancy (C, C, C) bool (module doc)."""
+    lo, hi = _corner_reduce(density, np.minimum), _corner_reduce(density, np.maximum)
+    empty = hi <= EMPTY_OCCUPANCY * SIGMA_MAX
+    full = lo >= SOLID_OCCUPANCY * SIGMA_MAX
+    n = deep_radius(density.shape[0])
+    # border_value=0: beyond the cube there is nothing, so cells near its faces are never deep
+    deep = ndimage.binary_erosion(full, np.ones((3, 3, 3), bool), iterations=n, border_value=0)
+    fine = np.full(full.shape, MIXED, np.int8)
+    fine[empty], fine[full], fine[deep] = EMPTY, FULL, DEEP
+    c = -(-empty.shape[0] // STRIDE)  # coarse cells a side
+    pad = c * STRIDE - empty.shape[0]
+    blocks = np.pad(~empty, [(0, pad)] * 3).reshape(c, STRIDE, c, STRIDE, c, STRIDE)
+    coarse = ndimage.binary_dilation(blocks.any(axis=(1, 3, 5)), np.ones((3, 3, 3), bool))
+    return fine.ravel(), coarse
 
 
 def prepare(grid: FieldGrid) -> RenderGrid:
@@ -110,7 +125,9 @@ def prepare(grid: FieldGrid) -> RenderGrid:
     # numpy (x, y, z[, c]) "ij" -> torch (c, z, y, x): grid_sample reads (x, y, z) as (W, H, D)
     dens_t = torch.from_numpy(np.ascontiguousarray(density.transpose(2, 1, 0)))[None, None]
     feat_t = torch.from_numpy(np.ascontiguousarray(features.transpose(3, 2, 1, 0)))[None]
-    return RenderGrid(density=dens_t, features=feat_t, coarse=coarse_states(density))
+    fine, coarse = cell_states(density)
+    return RenderGrid(density=dens_t, features=feat_t, fine=fine, coarse=coarse,
+                      deep_cells=deep_radius(density.shape[0]))
 
 
 def reconstruct(density: np.ndarray) -> np.ndarray:

@@ -9,15 +9,14 @@ and no resampling. Per object and ray:
    t stays the world distance, and is clipped to the cube [-1, 1]^3 (slab method, Kay and
    Kajiya 1986);
 2. coarse steps of f = floor(h / delta) fine steps (h the coarse cell in metres) are judged
-   at their first point in the coarse state grid (``genfield.render.grids``): the run spans
-   (f - 1) delta < h, every point of it lies in that point's coarse cell or a neighbour,
-   and the state grid is dilated by one cell, so an empty verdict is exact;
-3. from the first coarse step that starts in a solid cell the object contributes only the
-   f + 1 fine steps that the solid cell guarantees opaque (all within h of a point whose
-   26 neighbour cells are solid: optical depth >= SIGMA_MAX (f + 1) delta / s, at least
-   28 for every ladder grid), and nothing behind it;
-4. the density volume is sampled at the remaining fine steps (``grids.reconstruct``);
-   steps of zero density go.
+   at their first point in the coarse occupancy grid (``genfield.render.grids``): the run
+   spans (f - 1) delta < h, so every point of it lies in that point's coarse cell or a
+   neighbour, and the grid is dilated by one cell: an unoccupied verdict is exact;
+3. each remaining fine step is judged by its fine cell: empty cells have no density, full
+   ones exactly SIGMA_MAX, and only mixed ones are sampled (trilinear, ``grids.reconstruct``);
+4. at the first point (coarse or fine) in a deep cell the object's contribution on that ray
+   ends after the run of steps the deep cell guarantees opaque (optical depth >= TAU_DEEP):
+   nothing behind it can show, neither in the composite nor in the object's amodal mask.
 """
 
 from __future__ import annotations
@@ -26,7 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from genfield.render.grids import EMPTY, SOLID, RenderGrid, reconstruct, sample
+from genfield.field.grid import SIGMA_MAX
+from genfield.render.grids import DEEP, EMPTY, MIXED, RenderGrid, reconstruct, sample
 from genfield.scene import Pose
 
 
@@ -112,6 +112,23 @@ def _points(o3: np.ndarray, d3: np.ndarray, pair: np.ndarray, t: np.ndarray) -> 
     return o3.take(pair, axis=1) + t.astype(np.float32) * d3.take(pair, axis=1)
 
 
+def _first_per_owner(owner: np.ndarray, flagged: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Positions and owners of the first flagged entry of each owner (owner sorted)."""
+    at = np.flatnonzero(flagged)
+    if len(at) == 0:
+        return at, at
+    o = owner.take(at)
+    lead = at.compress(np.r_[True, o[1:] != o[:-1]])
+    return lead, owner.take(lead)
+
+
+def _cell_index(points: np.ndarray, cells: int, inv_size: float) -> np.ndarray:
+    """Flat ``indexing="ij"`` index of the cell (of ``cells`` a side) holding each point (3, n)."""
+    c = ((np.clip(points, -1.0, 1.0) + 1.0) * inv_size).astype(np.int64)
+    np.minimum(c, cells - 1, out=c)
+    return (c[0] * cells + c[1]) * cells + c[2]
+
+
 def march_object(placed: Placed, ray_ids: np.ndarray, origins: np.ndarray, directions: np.ndarray,
                  t0: np.ndarray, t1: np.ndarray, delta: np.ndarray) -> Samples:
     """Samples of one object along the rays ``ray_ids`` (sorted), at the shared steps.
@@ -127,36 +144,44 @@ def march_object(placed: Placed, ray_ids: np.ndarray, origins: np.ndarray, direc
     dl = delta[ray_ids]  # (m,) float64
     j0 = np.ceil(t0 / dl).astype(np.int64)
     j1 = np.floor(t1 / dl).astype(np.int64)
-    # a coarse step of f fine steps spans (f - 1) delta < one coarse cell (module doc, 2.)
-    f = np.floor(grid.coarse_cell * placed.scale / dl).astype(np.int64)  # (m,) steps a cell
+    fine_cells = grid.resolution - 1
+    # steps of opaque matter a deep cell guarantees ahead, and steps a coarse step may span
+    deep = np.floor(grid.deep_cells * grid.cell * placed.scale / dl).astype(np.int64)  # (m,)
+    f = np.floor(grid.coarse_cell * placed.scale / dl).astype(np.int64)  # (m,), (f - 1) delta < h
+
+    # 1. coarse steps: skip unoccupied ones, stop after the first that starts in a deep cell
     c0 = j0 // f
-    counts = np.where(j1 >= j0, j1 // f - c0 + 1, 0)  # coarse steps per ray
+    counts = np.where(j1 >= j0, j1 // f - c0 + 1, 0)
     pair, offset = _ragged_arange(counts)
     jc = (c0.take(pair) + offset) * f.take(pair)  # (q,) first fine step of each coarse step
     p = _points(o3, d3, pair, jc * dl.take(pair))  # (3, q)
-    cells = grid.coarse.shape[0]
-    cell = ((np.clip(p, -1.0, 1.0) + 1.0) * (1.0 / grid.coarse_cell)).astype(np.int64)
-    np.minimum(cell, cells - 1, out=cell)
-    state = grid.coarse.ravel().take((cell[0] * cells + cell[1]) * cells + cell[2])  # (q,)
+    coarse = grid.coarse.shape[0]
+    occupied = np.flatnonzero(grid.coarse.ravel().take(_cell_index(p, coarse, 1.0 / grid.coarse_cell)))
+    pair, jc, p = pair.take(occupied), jc.take(occupied), p.take(occupied, axis=1)
+    last = j1.copy()  # (m,) the last fine step that can matter
+    state = grid.fine.take(_cell_index(p, fine_cells, 1.0 / grid.cell))
+    lead, owners = _first_per_owner(pair, state == DEEP)
+    last[owners] = np.minimum(last.take(owners), jc.take(lead) + deep.take(owners))
+    keep = np.flatnonzero(jc <= last.take(pair))
+    pair, jc = pair.take(keep), jc.take(keep)
 
-    # hidden space: after the first solid coarse step only the run it guarantees opaque
-    last = j1.copy()  # (m,) last fine step that can matter
-    solid = np.flatnonzero(state == SOLID)
-    if len(solid):
-        sp = pair.take(solid)
-        lead = solid.compress(np.r_[True, sp[1:] != sp[:-1]])
-        owners = pair.take(lead)
-        last[owners] = np.minimum(last.take(owners), jc.take(lead) + f.take(owners))
-    active = np.flatnonzero((state != EMPTY) & (jc <= last.take(pair)))
-
-    apair = pair.take(active)
-    owner, fine = _ragged_arange(f.take(apair))
-    fpair = apair.take(owner)
-    fj = jc.take(active).take(owner) + fine  # (n,) fine steps
+    # 2. fine steps of those coarse steps, judged by their cell: empty ones go, full ones are
+    # SIGMA_MAX, the first deep one ends the object on that ray; only mixed ones are sampled
+    owner, fine = _ragged_arange(f.take(pair))
+    fpair = pair.take(owner)
+    fj = jc.take(owner) + fine  # (n,) fine steps
     inside = np.flatnonzero((fj >= j0.take(fpair)) & (fj <= last.take(fpair)))
     fpair, fj = fpair.take(inside), fj.take(inside)
     pts = _points(o3, d3, fpair, fj * dl.take(fpair))  # (3, n)
-    sigma = reconstruct(sample(grid.density, pts)[:, 0]) / placed.scale  # per object unit -> per metre
+    state = grid.fine.take(_cell_index(pts, fine_cells, 1.0 / grid.cell))
+    lead, owners = _first_per_owner(fpair, state == DEEP)
+    last[owners] = np.minimum(last.take(owners), fj.take(lead) + deep.take(owners))
+    keep = np.flatnonzero((state != EMPTY) & (fj <= last.take(fpair)))
+    fpair, fj, pts, state = fpair.take(keep), fj.take(keep), pts.take(keep, axis=1), state.take(keep)
+    sigma = np.full(len(fj), SIGMA_MAX, np.float32)  # per object unit
+    mixed = np.flatnonzero(state == MIXED)
+    sigma[mixed] = reconstruct(sample(grid.density, pts.take(mixed, axis=1))[:, 0])
+    sigma /= placed.scale  # per metre
     keep = np.flatnonzero(sigma > 0.0)
     return Samples(ray=ray_ids.take(fpair.take(keep)), step=fj.take(keep),
                    points=pts.take(keep, axis=1), sigma=sigma.take(keep))
