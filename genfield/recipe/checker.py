@@ -134,7 +134,7 @@ class Checker:
         source = format_expr(c.value)
         if kind == "number":
             node = self._param(c.name, node, typed.type.unit or "plain", source, c.pos,
-                               whole=typed.type.whole, per_object=per_object)
+                               per_object=per_object)
         elif kind == "vector":
             node = self._param(c.name, node, typed.type.unit or "plain", source, c.pos,
                                size=typed.type.size, per_object=per_object, expr=c.value)

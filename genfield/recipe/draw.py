@@ -222,7 +222,11 @@ def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
              env: dict[str, Any], fixed: dict[str, float], gap: float) -> list[SceneObject]:
     pending: list[_Pending] = []
     for b, obj in enumerate(recipe.objects):
-        count = int(v.draw(obj.count, v.Context(rng(seed, index, "count", b), env, fixed)))
+        drawn = v.draw(obj.count, v.Context(rng(seed, index, "count", b), env, fixed))
+        if not float(drawn).is_integer() or not 0 <= drawn <= 1000:  # an override can do this
+            raise error_at(f"{obj.name} count must be a whole number between 0 and 1000, got "
+                           f"{drawn:g}", obj.pos)
+        count = int(drawn)
         for k in range(count):
             local = dict(env)
             cctx = v.Context(rng(seed, index, "object-constants", b, k), local, fixed)

@@ -40,8 +40,11 @@ def _series(exprs: Sequence[ast.Expr], info: ParamInfo, lowering) -> tuple[float
         if isinstance(e, ast.Uniform):
             raise error_at(f"a sweep takes fixed values, got the range {format_expr(e)}", e.pos,
                            hint=f"for a series write {format_expr(e)} steps N")
-        node = lowering.fit_number(e, info.unit, info.name, info.bound, whole=info.whole, fixed=True)
-        return lowering.span(node)[0]
+        node = lowering.fit_number(e, info.unit, info.name, info.bound, fixed=True)
+        value = lowering.span(node)[0]
+        if info.whole and not float(value).is_integer():
+            raise error_at(f"{info.name} must be a whole number, got {format_expr(e)}", e.pos)
+        return value
 
     for e in exprs:
         if isinstance(e, ast.Steps):
