@@ -10,8 +10,6 @@ from __future__ import annotations
 
 import json
 import math
-import os
-import time
 from dataclasses import dataclass
 
 import numpy as np
@@ -23,6 +21,46 @@ from genfield.scene import Backdrop, CodeChoice, Light, Pose, Scene, SceneObject
 from genfield.seeds import rng
 
 FACTORY = "_dataset_doubles:sphere_pipeline"
+ASSETS = [("cup", 0), ("washer", 0)]  # built-in family assets, the codes the recipe names
+RECIPE = """# cups and washers on a floor, near enough to be a few hundred pixels each
+model "model.gfm"
+dataset {
+  images 6
+  seed 11
+  train 0.5
+  val 0.25
+  test 0.25
+  outputs image, mask, depth, normals
+}
+camera {
+  size 64x64
+  fov 40deg
+  target (0, 0, 3cm)
+  distance 55cm..60cm
+  elevation 35deg..55deg
+  azimuth 0deg..360deg
+}
+backdrop {
+  colour #c8ccd2
+  floor #707070
+}
+object cup {
+  count 2
+  asset "cup-0000"
+  scale 4cm..5cm
+  yaw 0deg..360deg
+  inside (-30cm, -30cm)..(30cm, 30cm)
+  on floor
+}
+object washer {
+  count 1 to 2
+  asset "washer-0000"
+  scale 4cm..5cm
+  yaw 0deg..360deg
+  inside (-30cm, -30cm)..(30cm, 30cm)
+  on floor
+}
+"""
 CLASSES = ("ball", "bead")
 
 
@@ -116,7 +154,6 @@ class SpherePipeline:
         return draw(self.params, self.seed, index)
 
     def render(self, scene: Scene) -> RenderOutput:
-        time.sleep(float(os.environ.get("GENFIELD_TEST_DELAY", "0")))
         return trace(scene)
 
 
@@ -133,3 +170,39 @@ def tree(root) -> dict[str, str]:
     root = Path(root)
     return {str(p.relative_to(root)): hashlib.sha256(p.read_bytes()).hexdigest()
             for p in sorted(root.rglob("*")) if p.is_file()}
+
+
+def tiny_model_file(path, names=("cup-0000", "washer-0000")):
+    """A real model file (safetensors + metadata, genfield.field.model.Model.save) whose tiny
+    network has fixed pseudo-random weights: untrained, but a genuine model for the whole
+    ``genfield render`` path (load_model, baking, rendering) in a fraction of a second."""
+    from dataclasses import replace
+
+    import torch
+
+    from genfield.field.codebook import CodeBook
+    from genfield.field.config import NetworkConfig, SourcesConfig, TrainConfig
+    from genfield.field.model import Model
+    from genfield.field.network import FieldNetwork
+
+    net_cfg = NetworkConfig(shape_dim=4, appearance_dim=3, octaves=2, width=16, depth=2,
+                            feature_dim=4, colour_width=8)
+    network = FieldNetwork(net_cfg)
+    g = np.random.default_rng(0)
+    with torch.no_grad():
+        for p in network.parameters():
+            p.copy_(torch.from_numpy(g.normal(0.0, 0.7, tuple(p.shape)).astype(np.float32)))
+    n, d = len(names), net_cfg.shape_dim + net_cfg.appearance_dim
+    book = CodeBook(names=tuple(names), families=tuple(x.rsplit("-", 1)[0] for x in names),
+                    shape=g.normal(size=(n, net_cfg.shape_dim)).astype(np.float32),
+                    appearance=g.normal(size=(n, net_cfg.appearance_dim)).astype(np.float32),
+                    prior_weights=np.ones(1), prior_means=np.zeros((1, d)),
+                    prior_chols=np.eye(d)[None])
+    families: dict[str, int] = {}
+    for family in book.families:
+        families[family] = families.get(family, 0) + 1
+    cfg = replace(TrainConfig(), network=net_cfg, sources=SourcesConfig(families=families))
+    model = Model(config=cfg, network=network, codebook=book,
+                  sources=tuple(f"test:{x}" for x in names))
+    model.save(path)
+    return path

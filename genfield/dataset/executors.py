@@ -62,14 +62,19 @@ def _worker_task(index: int) -> ImageResult:
     return render_task(_WORKER_SPEC, index)
 
 
-def _context() -> multiprocessing.context.BaseContext:
+# What a worker needs, imported once by the fork server rather than by every worker.
+PRELOAD = ("torch", "genfield.field.model", "genfield.recipe.loader", "genfield.recipe.draw",
+           "genfield.render.renderer", __name__)
+
+
+def _context(spec: JobSpec) -> multiprocessing.context.BaseContext:
     """forkserver where the platform has it, else spawn: never fork a process holding torch's
-    threads. The fork server imports torch and this module once, so each worker starts in a
-    fraction of a second instead of importing them again."""
+    threads. The fork server imports the workers' modules once (the preload takes effect when
+    it starts, at the first pool of a process), so each worker starts in a fraction of a second."""
     if "forkserver" not in multiprocessing.get_all_start_methods():
         return multiprocessing.get_context("spawn")
     context = multiprocessing.get_context("forkserver")
-    context.set_forkserver_preload(["torch", __name__])
+    context.set_forkserver_preload([*PRELOAD, spec.factory.partition(":")[0]])
     return context
 
 
@@ -77,7 +82,7 @@ def process_results(spec: JobSpec, indices: Iterable[int], workers: int) -> Iter
     """Render in ``workers`` local processes; results come back as they finish."""
     pending: set[Future] = set()
     todo = iter(indices)
-    pool = ProcessPoolExecutor(max_workers=workers, mp_context=_context(),
+    pool = ProcessPoolExecutor(max_workers=workers, mp_context=_context(spec),
                                initializer=_init_worker, initargs=(spec,))
     try:
         while True:

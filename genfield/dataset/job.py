@@ -15,6 +15,7 @@ from __future__ import annotations
 import hashlib
 import importlib
 import json
+import os
 import tempfile
 import threading
 from dataclasses import dataclass
@@ -24,7 +25,7 @@ from typing import Protocol
 
 from genfield.dataset.labels import ImageResult, label_image
 from genfield.dataset.layout import OUTPUTS, split_of
-from genfield.errors import DatasetError, ModelFileError, UsageError
+from genfield.errors import DatasetError, GenfieldError, ModelFileError, UsageError
 from genfield.render.options import RenderOptions
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene
@@ -114,56 +115,58 @@ class _RecipePipeline:
     seed: int
 
     def draw(self, index: int) -> Scene:
-        from genfield.recipe import draw_scene
+        from genfield.recipe.draw import draw_scene
 
         return draw_scene(self.recipe, self.model.codebook, self.seed, index)
 
     def render(self, scene: Scene) -> RenderOutput:
-        from genfield.render import render_scene
+        from genfield.render.renderer import render_scene
 
         return render_scene(self.model, scene, options=DATASET_RENDER)
 
 
-def recipe_pipeline(spec: JobSpec) -> Pipeline:
-    """genfield's pipeline: the recipe and model rebuilt from the spec's bytes, the real renderer.
+_TEMP_FOLDERS: set[str] = set()  # where job recipes were read from, to be cut from messages
 
-    The bytes go to a private temp folder for the loaders, which is removed once loaded.
-    """
-    from genfield.field import load_model
-    from genfield.recipe import load_recipe
 
-    with tempfile.TemporaryDirectory(prefix="genfield-job-") as tmp:
-        model_path = Path(tmp) / "model" / spec.model_name
-        model_path.parent.mkdir()
-        model_path.write_bytes(spec.model_bytes)
+def load_job_recipe(spec: JobSpec, model_path: Path | None):
+    """The job's recipe, checked again from its files (written to a private temp folder,
+    removed once read); ``model_path`` stands in for the model the recipe names."""
+    from genfield.recipe.loader import load_recipe
+
+    with tempfile.TemporaryDirectory(prefix="genfield-recipe-") as tmp:
+        _TEMP_FOLDERS.add(str(Path(tmp).resolve()) + os.sep)
         for rel, text in spec.recipe_files:
-            path = Path(tmp) / "recipe" / rel
+            path = Path(tmp) / rel
             path.parent.mkdir(parents=True, exist_ok=True)
             path.write_text(text, encoding="utf-8")
-        recipe_path = Path(tmp) / "recipe" / spec.recipe_name
+        return load_recipe(Path(tmp) / spec.recipe_name, model=model_path)
+
+
+def _user_where(where: str | None) -> str | None:
+    """An error's place with the job's temp folder cut off: ``tray.gfr:12:3``."""
+    for folder in _TEMP_FOLDERS:
+        if where and folder in where:
+            return where.replace(folder, "")
+    return where
+
+
+def recipe_pipeline(spec: JobSpec) -> Pipeline:
+    """genfield's pipeline: the recipe and model rebuilt from the spec's bytes, the real renderer."""
+    from genfield.field.model import load_model
+
+    with tempfile.TemporaryDirectory(prefix="genfield-model-") as tmp:
+        model_path = Path(tmp) / spec.model_name
+        model_path.write_bytes(spec.model_bytes)
         model = load_model(model_path)
-        recipe = load_recipe(recipe_path, model=model_path)
+        recipe = load_job_recipe(spec, model_path)
     return _RecipePipeline(recipe, model, spec.seed)
 
 
-def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
-                    count: int | None = None, seed: int | None = None) -> JobSpec:
-    """The job a recipe describes, with the model file's bytes; ``count``/``seed`` override it.
-
-    Raises RecipeError for a bad recipe, UsageError for a missing model or a bad option,
-    DatasetError for an output genfield render does not write.
-    """
-    from genfield.recipe.loader import load_recipe
-
-    recipe = load_recipe(recipe_path, model=model)
-    if recipe.model_path is None:
-        raise UsageError("the recipe names no model file", where=str(recipe_path),
-                         hint='add a line model "FILE" to the recipe, or give --model')
-    try:
-        model_bytes = Path(recipe.model_path).read_bytes()
-    except OSError as err:
-        raise ModelFileError(f"cannot read the model file: {err.strerror}", where=str(recipe.model_path),
-                             hint="train one with 'genfield train', or give --model") from None
+def job_of(recipe, recipe_path: Path | str, model_name: str, model_bytes: bytes, *,
+           count: int | None = None, seed: int | None = None,
+           factory: str = RECIPE_PIPELINE) -> JobSpec:
+    """The job of a checked recipe (read from ``recipe_path``) with a model's name and bytes;
+    ``count``/``seed`` override the recipe's."""
     if count is not None and count < 1:
         raise UsageError(f"--count must be at least 1, got {count}")
     if seed is not None and seed < 0:
@@ -179,7 +182,7 @@ def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
     wanted = set(recipe.dataset.outputs) | {"image"}
     return JobSpec(
         recipe_files=files,
-        model_name=Path(recipe.model_path).name,
+        model_name=model_name,
         model_bytes=model_bytes,
         seed=recipe.dataset.seed if seed is None else seed,
         count=recipe.dataset.count if count is None else count,
@@ -187,7 +190,33 @@ def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
         outputs=tuple(o for o in OUTPUTS if o in wanted),
         amodal_masks="amodal" in recipe.dataset.outputs,
         classes=tuple(recipe.classes),
+        factory=factory,
     )
+
+
+def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
+                    count: int | None = None, seed: int | None = None) -> JobSpec:
+    """The job a recipe file describes, with its model file's bytes (``model`` overrides the
+    file the recipe names; ``count``/``seed`` its dataset settings).
+
+    Raises RecipeError for a bad recipe, UsageError for a bad option, ModelFileError for a
+    model that cannot be read, DatasetError for an output genfield render does not write.
+    The model is loaded once here, so that its errors name the user's file, not a copy.
+    """
+    from genfield.field.model import load_model
+    from genfield.recipe.loader import load_recipe
+
+    recipe = load_recipe(recipe_path, model=model)
+    if recipe.model_path is None:
+        raise UsageError("the recipe names no model file", where=str(recipe_path),
+                         hint='add a line model "FILE" to the recipe, or give --model')
+    try:
+        model_bytes = Path(recipe.model_path).read_bytes()
+    except OSError as err:
+        raise ModelFileError(f"cannot read the model file: {err.strerror}", where=str(recipe.model_path),
+                             hint="train one with 'genfield train', or give --model") from None
+    load_model(recipe.model_path)
+    return job_of(recipe, recipe_path, Path(recipe.model_path).name, model_bytes, count=count, seed=seed)
 
 
 _PIPELINES: dict[str, Pipeline] = {}
@@ -206,7 +235,11 @@ def pipeline_for(spec: JobSpec) -> Pipeline:
 def render_task(spec: JobSpec, index: int) -> ImageResult:
     """Render and label image ``index`` of ``spec``: the unit of work of every executor."""
     pipeline = pipeline_for(spec)
-    scene = pipeline.draw(index)
+    try:
+        scene = pipeline.draw(index)
+    except GenfieldError as err:  # e.g. objects that cannot be placed: name the user's file
+        err.where = _user_where(err.where)
+        raise
     if scene.index != index:
         raise ValueError(f"the pipeline drew scene {scene.index} when asked for {index}")
     return label_image(scene, pipeline.render(scene), count=spec.count, split=spec.split(index),
