@@ -31,7 +31,8 @@ MAX_STEPS = 128  # sphere-tracing steps; rays still marching then are finished b
 TAIL_STEP = 2e-4  # grid spacing of that finish, object units
 OMEGA = 1.6  # over-relaxation of the first steps (the value Keinert et al. 2014 suggest)
 NORMAL_STEP = 1e-5  # central-difference step of the SDF gradient, object units
-SHADOW_OFFSET = 1e-4  # shadow rays start this far (metres) along the surface normal
+SHADOW_OFFSET = 1e-3  # shadow rays start this far along the normal: object units (times the
+# object's scale) on objects, metres on the floor
 
 
 @dataclass(frozen=True)
@@ -221,7 +222,8 @@ def trace_reference(camera: Camera, objects: Sequence[tuple[Asset, Pose]], *,
     if light.shadows and objects:
         lit_side = np.flatnonzero(hit & (direct > 0))
         p = rays.origins[lit_side] + t[lit_side, None] * rays.directions[lit_side]
-        p = p + SHADOW_OFFSET * normal[lit_side]
+        scales = np.array([1.0] + [pose.scale for _, pose in objects])[instance[lit_side]]
+        p = p + (SHADOW_OFFSET * scales)[:, None] * normal[lit_side]
         blocked, _ = _first_hits(objects, p, np.broadcast_to(l_dir, p.shape).copy())
         direct[lit_side[np.isfinite(blocked.t)]] = 0.0
     background = _backdrop(camera, backdrop)
