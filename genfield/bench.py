@@ -19,7 +19,8 @@ from collections.abc import Callable
 from dataclasses import asdict, dataclass
 
 # Modules whose import registers cases. Add a package's benchmarks module here.
-CASE_MODULES: tuple[str, ...] = ("genfield.bench", "genfield.mesh.benchmarks", "genfield.assets.benchmarks")
+CASE_MODULES: tuple[str, ...] = ("genfield.bench", "genfield.mesh.benchmarks", "genfield.assets.benchmarks",
+                                 "genfield.dataset.benchmarks")
 
 
 @dataclass(frozen=True)

@@ -1,0 +1,121 @@
+"""Benchmark of ``genfield render``: throughput per worker (1 and 2 workers) and peak memory
+at two image counts, on a 5-object 128x128 recipe.
+
+The pipeline is genfield's own (recipe loader, ``draw_scene``, the renderer, the dataset
+writer) with an exact analytic field of five built-in family assets standing in for a
+trained network (``genfield.dataset.analytic``): no model file ships with genfield, and a
+network's baking adds its own cost on top (see the field's benchmarks).
+"""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from genfield.bench import Figure, case
+
+ASSETS = [("cup", 0), ("washer", 0), ("bowl", 0), ("bottle", 0), ("hex_nut", 0)]
+RECIPE = """# five objects, one of each family, on a floor: the dataset benchmark
+model "model.gfm"
+dataset {
+  images 100
+  seed 5
+  train 0.8
+  val 0.1
+  test 0.1
+  outputs image, mask, depth
+}
+camera {
+  size 128x128
+  fov 40deg
+  target (0, 0, 3cm)
+  distance 55cm..65cm
+  elevation 30deg..55deg
+  azimuth 0deg..360deg
+}
+light {
+  direction (0.3, -0.4, 0.8)
+  strength 0.8
+  ambient 0.3
+}
+backdrop {
+  colour #c8ccd2
+  floor #707070
+}
+""" + "".join(f"""object {family} {{
+  asset "{family}-{index:04d}"
+  scale 4cm..5cm
+  yaw 0deg..360deg
+  inside (-35cm, -35cm)..(35cm, 35cm)
+  on floor
+}}
+""" for family, index in ASSETS)
+
+# Peak memory of one whole run in a fresh process (ru_maxrss is KiB on Linux).
+_RSS_SCRIPT = """
+import resource, sys
+from genfield.dataset.benchmarks import bench_job
+from genfield.dataset.writer import write_dataset
+if __name__ == "__main__":
+    write_dataset(sys.argv[2], bench_job(sys.argv[1], int(sys.argv[3])))
+    print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
+"""
+
+
+def bench_job(folder: str | Path, count: int):
+    """The benchmark's job, its recipe written into ``folder``."""
+    from genfield.dataset.analytic import analytic_job
+
+    path = Path(folder) / "bench.gfr"
+    if not path.is_file():
+        path.write_text(RECIPE, encoding="utf-8")
+    return analytic_job(path, ASSETS, count=count)
+
+
+def _rate(folder: Path, name: str, count: int, workers: int) -> float:
+    """Images per second of one run (the loop only: rendering, encoding, writing)."""
+    from genfield.dataset.writer import write_dataset
+
+    summary = write_dataset(folder / name, bench_job(folder, count), workers=workers)
+    return summary.rendered / summary.seconds
+
+
+def _peak_rss_mib(folder: Path, name: str, count: int) -> float:
+    proc = subprocess.run([sys.executable, "-c", _RSS_SCRIPT, str(folder), str(folder / name),
+                           str(count)], check=True, capture_output=True, text=True)
+    return int(proc.stdout.strip().splitlines()[-1]) / 1024.0
+
+
+@case("dataset_render", "genfield render of a 5-object 128x128 recipe: images/s per worker "
+      "with 1 and 2 workers, peak memory at two image counts")
+def _dataset_render(quick: bool) -> list[Figure]:
+    n = 12 if quick else 40
+    small, large = (30, 300) if quick else (100, 1000)
+    with tempfile.TemporaryDirectory(prefix="genfield-bench-") as tmp:
+        folder = Path(tmp)
+        _rate(folder, "warm1", 2, 1)  # imports and first-use costs out of the timing
+        one = _rate(folder, "one", n, 1)
+        _rate(folder, "warm2", 4, 2)  # starts the fork server with its preloads
+        two = _rate(folder, "two", n, 2)
+        start = time.perf_counter()
+        rss_small = _peak_rss_mib(folder, "small", small)
+        small_seconds = time.perf_counter() - start
+        rss_large = _peak_rss_mib(folder, "large", large)
+        annotations = json.loads((folder / "large" / "annotations.json").read_text())
+    note = "analytic field of 5 family assets (no trained model), real recipe + renderer; "
+    return [
+        Figure("images_per_s_1_worker", one, "images/s", note + f"{n} images, 1 render thread"),
+        Figure("images_per_s_per_worker_2_workers", two / 2, "images/s",
+               f"{n} images over 2 worker processes (incl. their start from a warm fork server)"),
+        Figure("scaling_2_over_1_workers", two / one, "x", "ideal 2 on 2 free cores"),
+        Figure(f"peak_rss_mib_{small}_images", rss_small, "MiB",
+               f"one process, serial; whole run {small_seconds:.0f} s"),
+        Figure(f"peak_rss_mib_{large}_images", rss_large, "MiB", "same, 10x the images"),
+        Figure("peak_rss_ratio_10x_images", rss_large / rss_small, "x", "target ~1 (flat)"),
+        Figure(f"annotations_{large}_images", float(len(annotations["annotations"])), "count",
+               "visible objects annotated in the large run (a valid dataset was written)"),
+    ]
