@@ -16,6 +16,8 @@ __version__ = "0.1.0"
 _PUBLIC: dict[str, str] = {
     "GenfieldError": "genfield.errors",
     "Scene": "genfield.scene",
+    "load_recipe": "genfield.recipe.loader",
+    "draw_scene": "genfield.recipe.draw",
     "SceneDataset": "genfield.dataset.reader",
     "render_scene": "genfield.render.renderer",
     "RenderOptions": "genfield.render.options",
