@@ -30,9 +30,11 @@ from genfield.field.grid import FieldGrid, density_from_occupancy, grid_points, 
 SdfFn = Callable[[np.ndarray], np.ndarray]  # (N, 3) object frame -> (N,) signed distance, < 0 inside
 ColourFn = Callable[[np.ndarray], np.ndarray]  # (N, 3) object frame -> (N, 3) sRGB in [0, 1]
 
-# Half-width of the soft inside indicator of ``query``, object units: a nearly sharp surface,
-# as a trained occupancy network has.
-DEFAULT_EDGE = 0.004
+# Half-width of the soft inside indicator of ``query``, object units: a nearly sharp surface.
+# Volume rendering a soft occupancy directly grows silhouettes by a few widths (its tail adds
+# optical depth along grazing rays): measured against the grid renderer at 65^3, mask IoU
+# 0.967 at 0.004, 0.989 at 0.002 and 0.998 at 0.001.
+DEFAULT_EDGE = 0.001
 # A bake widens the transition to half a grid cell, so that the grid values still carry where
 # the surface lies within a cell (measured on a sphere at 65^3: median depth error 0.06 cells,
 # against 0.16 at one cell and a staircase of +-0.5 cells for a near-binary grid).
