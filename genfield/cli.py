@@ -106,6 +106,11 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("genfield: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # `genfield ... | head`: the reader left; not an error of ours
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
     except SystemExit as stop:  # argparse --help / --version
         return int(stop.code or 0) if isinstance(stop.code, int) else 0
     except Exception as err:  # noqa: BLE001 (the last line of defence: one useful line)
