@@ -14,7 +14,7 @@ from pathlib import Path
 from typing import Any
 
 from genfield.dataset.coco import write_annotations
-from genfield.dataset.files import atomic_file, sha256_bytes
+from genfield.dataset.files import atomic_file, sha256_bytes, sync_all
 from genfield.dataset.layout import ANNOTATIONS, FACTORS, record_file
 from genfield.dataset.manifest import write_manifest
 from genfield.errors import DatasetError
@@ -63,4 +63,5 @@ def assemble(root: Path, head: dict[str, Any], indices: range) -> None:
 
     finished = {**head, "complete": True, "images": len(indices),
                 "split_counts": {name: splits[name] for name in head["splits"]}}
+    sync_all()  # every file on disk before the manifest says the folder is complete
     write_manifest(root, finished, files())

@@ -18,6 +18,7 @@ import json
 import os
 import tempfile
 import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path, PurePosixPath
@@ -219,7 +220,8 @@ def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
     return job_of(recipe, recipe_path, Path(recipe.model_path).name, model_bytes, count=count, seed=seed)
 
 
-_PIPELINES: dict[str, Pipeline] = {}
+_PIPELINES: OrderedDict[str, Pipeline] = OrderedDict()
+_KEEP_PIPELINES = 2  # a long-lived worker (Dask) may serve a few jobs; older ones are dropped
 _LOCK = threading.Lock()
 
 
@@ -229,6 +231,9 @@ def pipeline_for(spec: JobSpec) -> Pipeline:
         if spec.key not in _PIPELINES:
             module, _, name = spec.factory.partition(":")
             _PIPELINES[spec.key] = getattr(importlib.import_module(module), name)(spec)
+            while len(_PIPELINES) > _KEEP_PIPELINES:
+                _PIPELINES.popitem(last=False)
+        _PIPELINES.move_to_end(spec.key)
         return _PIPELINES[spec.key]
 
 

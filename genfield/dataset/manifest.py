@@ -75,8 +75,9 @@ def head_of(manifest: dict[str, Any], shard: tuple[int, int] | None) -> dict[str
 
 
 def write_manifest(root: Path, head: dict[str, Any], files: Iterable[tuple[str, str]]) -> None:
-    """Write ``manifest.json`` atomically: ``head`` (sorted keys), then ``files`` as it streams."""
-    with atomic_file(root / MANIFEST) as out:
+    """Write ``manifest.json`` atomically and durably: ``head`` (sorted keys), then ``files``
+    as it streams."""
+    with atomic_file(root / MANIFEST, durable=True) as out:
         text = json.dumps(head, indent=1, sort_keys=True)
         out.write(text[: text.rindex("}")].rstrip().encode() + b',\n "files": {')
         for n, (path, sha) in enumerate(files):

@@ -24,13 +24,14 @@ from genfield.dataset.executors import results
 from genfield.dataset.files import (
     make_folders,
     remove_temps,
+    sha256_bytes,
     sha256_file,
     write_atomic,
     write_error,
 )
 from genfield.dataset.job import JobSpec, pipeline_for
 from genfield.dataset.labels import ImageResult
-from genfield.dataset.layout import is_temp, own_entries, record_file, shard_indices
+from genfield.dataset.layout import image_file, is_temp, own_entries, record_file, shard_indices
 from genfield.dataset.manifest import differences, plan, read_manifest, write_manifest
 from genfield.errors import DatasetError, UsageError
 
@@ -91,23 +92,25 @@ def prepare(root: Path, head: dict, *, resume: bool, force: bool) -> dict:
     return old
 
 
-def intact(root: Path, index: int, count: int, outputs: int, known: dict[str, str]) -> bool:
-    """True when image ``index``'s record reads and every file it lists has its hash.
+def intact(root: Path, index: int, count: int, outputs: tuple[str, ...], known: dict[str, str]) -> bool:
+    """True when image ``index``'s record reads, lists exactly its files for ``outputs``, and
+    every one of them has the listed hash.
 
     ``known`` is the previous manifest's file table: a record it lists must match it too.
     """
-    path = root / record_file(index, count)
-    if not path.is_file():
+    if not (root / record_file(index, count)).is_file():
         return False
     try:
         record, data = read_record(root, index, count)
     except DatasetError:
         return False
     expected = known.get(record_file(index, count))
-    if expected is not None and sha256_file(path) != expected:
+    if expected is not None and sha256_bytes(data) != expected:
         return False
     files = record.get("files") if isinstance(record, dict) else None
-    if record.get("index") != index or not isinstance(files, dict) or len(files) != outputs:
+    if not isinstance(files, dict) or record.get("index") != index:
+        return False
+    if set(files) != {image_file(o, index, count) for o in outputs}:
         return False
     return all(sha256_file(root / rel) == sha for rel, sha in files.items())
 
@@ -146,7 +149,7 @@ def write_dataset(root: Path | str, spec: JobSpec, *, shard: tuple[int, int] | N
     done = np.zeros(len(indices), dtype=bool)  # one byte an image: flat enough at any count
     if resume:
         for k, index in enumerate(indices):
-            done[k] = intact(root, index, spec.count, len(spec.outputs), known)
+            done[k] = intact(root, index, spec.count, spec.outputs, known)
         log.info("resume: %d of %d images intact, %d to render", done.sum(), len(indices), (~done).sum())
     del known, old
 
