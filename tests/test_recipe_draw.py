@@ -64,7 +64,7 @@ def test_a_clamp_piles_the_tails_on_its_ends(tmp_path):
 
 def test_whole_ranges_and_picks_follow_their_weights_chi_square(tmp_path):
     counts = [draw_scene(recipe("  count 1 to 4\n", tmp_path), None, 2, i).objects.__len__()
-              for i in range(800)]
+              for i in range(400)]
     observed = np.bincount(counts, minlength=5)[1:]
     assert stats.chisquare(observed).pvalue > 1e-3  # equally likely 1, 2, 3, 4
     scales = [o.pose.scale for o in many("  scale pick [1cm: 1, 2cm: 3]\n", tmp_path)]

@@ -74,7 +74,7 @@ draws = st.one_of(
 shifted = st.one_of(draws, st.builds(lambda a, d, b: f"{a} shift dim {d} by {b}", st.deferred(lambda: shifted), whole, draws))
 
 
-@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(exprs)
 def test_any_expression_prints_back_to_the_same_tree(text):
     (setting,) = parse_text(f"v {text}\n").statements
@@ -83,7 +83,7 @@ def test_any_expression_prints_back_to_the_same_tree(text):
     assert again == setting
 
 
-@settings(max_examples=150, deadline=None)
+@settings(max_examples=80, deadline=None)
 @given(st.randoms(use_true_random=False))
 def test_any_made_up_recipe_formats_to_the_same_spec(r):
     text = random_recipe(r)
