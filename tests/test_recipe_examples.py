@@ -62,3 +62,45 @@ def test_show_json_is_plain_data():
                            "--show", "1"], capture_output=True, text=True, timeout=120, check=True)
     scene = json.loads(proc.stdout)
     assert scene["index"] == 0 and scene["seed"] == 1 and scene["objects"]
+
+
+def _model_file(path: Path) -> Path:
+    """A model file holding only the toy code table (the checker reads nothing else)."""
+    from genfield.field.codebook import codebook_tensors
+    from genfield.field.modelfile import write_model_file
+
+    path.parent.mkdir(parents=True, exist_ok=True)
+    write_model_file(path, codebook_tensors(BOOK), {
+        "config": {}, "names": list(BOOK.names), "families": list(BOOK.families),
+        "sources": [], "prior": {}, "metrics": {}})
+    return path
+
+
+def test_check_reads_the_models_code_names(tmp_path, capsys):
+    from genfield import cli
+
+    recipe = tmp_path / "r.gfr"
+    recipe.write_text('model "models/m.gfm"\nobject cup {\n  asset "cup-0001"\n}\n')
+    _model_file(tmp_path / "models" / "m.gfm")  # the recipe's own model, found and used
+    assert cli.main(["check", str(recipe)]) == 0
+    assert "(code names checked)" in capsys.readouterr().out
+    assert cli.main(["check", str(recipe), "--show", "1"]) == 0
+    scene = Scene.from_json(capsys.readouterr().out)
+    assert scene.objects[0].shape.vector == tuple(float(x) for x in BOOK.shape[BOOK.index("cup-0001")])
+    recipe.write_text('object cup {\n  asset "cpu-0001"\n}\n')
+    other = _model_file(tmp_path / "elsewhere.gfm")
+    assert cli.main(["check", str(recipe), "--model", str(other)]) == 2
+    err = capsys.readouterr().err.splitlines()[0]
+    assert err == (f"genfield: error: {recipe}:2:9: the model has no code named 'cpu-0001' "
+                   "(did you mean 'cup-0001'?)")
+
+
+def test_checking_against_a_model_file_does_not_import_torch(tmp_path):
+    (tmp_path / "r.gfr").write_text('model "m.gfm"\nobject cup {\n  asset "cup-0001"\n}\n')
+    _model_file(tmp_path / "m.gfm")
+    code = ("import sys\nfrom genfield.cli import main\n"
+            f"assert main(['check', {str(tmp_path / 'r.gfr')!r}, '--show', '1']) == 0\n"
+            "print('TORCH', 'torch' in sys.modules)")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.strip().endswith("TORCH False")
