@@ -33,6 +33,8 @@ _PUBLIC: dict[str, str] = {
     "load_mesh_assets": "genfield.assets.meshes",
     "sample_ground_truth": "genfield.assets.ground_truth",
     "trace_reference": "genfield.render.reference",
+    "load_model": "genfield.field.model",
+    "read_codebook": "genfield.field.codebook",
 }
 
 __all__ = ["__version__", *_PUBLIC]

@@ -59,3 +59,48 @@ class CodeBook:
         joint = self.prior_means[c] + temperature * (self.prior_chols[c] @ z)
         joint = joint.astype(np.float32)
         return joint[: self.shape_dim], joint[self.shape_dim :]
+
+
+def codebook_tensors(book: CodeBook) -> dict[str, np.ndarray]:
+    """The code table and prior as named float32 arrays, as the model file stores them."""
+    return {
+        "codes.shape": np.asarray(book.shape, dtype=np.float32),
+        "codes.appearance": np.asarray(book.appearance, dtype=np.float32),
+        "prior.weights": np.asarray(book.prior_weights, dtype=np.float64),
+        "prior.means": np.asarray(book.prior_means, dtype=np.float64),
+        "prior.chols": np.asarray(book.prior_chols, dtype=np.float64),
+    }
+
+
+def codebook_from_contents(tensors: dict[str, np.ndarray], names: list, families: list,
+                           where: str) -> CodeBook:
+    """Rebuild a CodeBook from a model file's arrays and lists, checking that they agree."""
+    from genfield.errors import ModelFileError
+
+    try:
+        shape, appearance = tensors["codes.shape"], tensors["codes.appearance"]
+        weights, means, chols = (tensors["prior.weights"], tensors["prior.means"],
+                                 tensors["prior.chols"])
+    except KeyError as err:
+        raise ModelFileError(f"the code table lacks the array {err.args[0]!r}", where=where) from None
+    bad = ModelFileError("the code table and prior arrays do not fit together", where=where)
+    if shape.ndim != 2 or appearance.ndim != 2 or weights.ndim != 1:
+        raise bad
+    n, c = len(names), weights.shape[0]
+    d = shape.shape[1] + appearance.shape[1]
+    if (c < 1 or shape.shape[0] != n or appearance.shape[0] != n or len(families) != n
+            or len(set(names)) != n or means.shape != (c, d) or chols.shape != (c, d, d)
+            or not np.isclose(weights.sum(), 1.0)):
+        raise bad
+    return CodeBook(names=tuple(str(x) for x in names), families=tuple(str(x) for x in families),
+                    shape=shape.astype(np.float32), appearance=appearance.astype(np.float32),
+                    prior_weights=weights, prior_means=means, prior_chols=chols)
+
+
+def read_codebook(path) -> CodeBook:
+    """The code table and prior of a model file, read without torch (numpy + safetensors)."""
+    from genfield.field.modelfile import read_model_file
+
+    contents = read_model_file(path)
+    return codebook_from_contents(contents.tensors, contents.meta["names"],
+                                  contents.meta["families"], str(path))

@@ -1,0 +1,199 @@
+"""A trained model: network, code table, prior and metrics; queries and bakes for any code pair.
+
+``load_model(path)`` reads a model file; ``Model.query`` is the per-sample network (numpy in
+and out, chunked); ``Model.bake`` turns a code pair into a FieldGrid for the renderer and the
+mesh extractor (coarse-to-fine, see ``genfield.field.bake``).
+"""
+
+from __future__ import annotations
+
+import logging
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import torch
+
+from genfield.errors import ModelFileError
+from genfield.field.bake import (
+    DEFAULT_MARGIN,
+    DEFAULT_STEPS,
+    BakeStats,
+    bake_arrays,
+    clean_occupancy,
+)
+from genfield.field.codebook import CodeBook, codebook_from_contents, codebook_tensors
+from genfield.field.config import ConfigError, TrainConfig, config_from_dict
+from genfield.field.grid import SIGMA_MAX, FieldGrid
+from genfield.field.modelfile import read_model_file, write_model_file
+from genfield.field.network import FieldNetwork
+
+log = logging.getLogger(__name__)
+
+CHUNK = 16384  # points per network call: bounded memory, large enough for fast matrix products
+
+
+def _inside_cube(points: np.ndarray) -> np.ndarray:
+    return np.all(np.abs(points) <= 1.0, axis=1)
+
+
+@dataclass
+class Model:
+    """A field network with its codes.
+
+    config: the TrainConfig it was trained with; codebook: names, families, codes, prior;
+    sources: one entry per code (where the asset came from); metrics: measured figures.
+    """
+
+    config: TrainConfig
+    network: FieldNetwork
+    codebook: CodeBook
+    sources: tuple[str, ...]
+    metrics: dict[str, Any] = field(default_factory=dict)
+    prior_info: dict[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        torch.set_flush_denormal(True)  # denormals slow the products 2-3x (issue 5, measured)
+        self.network.eval()
+        for p in self.network.parameters():
+            p.requires_grad_(False)
+
+    # --- codes -----------------------------------------------------------------------------
+    def codes(self, name: str) -> tuple[np.ndarray, np.ndarray]:
+        """The (shape (Ds,), appearance (Da,)) codes stored under ``name``."""
+        i = self.codebook.index(name)
+        return self.codebook.shape[i], self.codebook.appearance[i]
+
+    def _code(self, code: np.ndarray, dim: int, what: str) -> torch.Tensor:
+        c = np.asarray(code, dtype=np.float32).reshape(-1)
+        if c.shape != (dim,):
+            raise ValueError(f"{what} code must have {dim} entries, got {c.shape[0]}")
+        return torch.from_numpy(c)[None, :]  # (1, dim)
+
+    # --- per-sample queries ----------------------------------------------------------------
+    def _geometry(self, points: np.ndarray, shape: torch.Tensor) -> tuple[np.ndarray, np.ndarray]:
+        """Logits (N,) and features (N, F) at object-frame points (N, 3), chunked."""
+        pts = np.ascontiguousarray(points, dtype=np.float32).reshape(-1, 3)
+        logits = np.empty(len(pts), np.float32)
+        feats = np.empty((len(pts), self.config.network.feature_dim), np.float32)
+        with torch.inference_mode():
+            for s in range(0, len(pts), CHUNK):
+                x = torch.from_numpy(pts[s : s + CHUNK])[None]  # (1, n, 3)
+                lg, ft = self.network.geometry(x, shape)
+                logits[s : s + CHUNK] = lg[0].numpy()
+                feats[s : s + CHUNK] = ft[0].numpy()
+        return logits, feats
+
+    def _colour(self, feats: np.ndarray, appearance: torch.Tensor) -> np.ndarray:
+        out = np.empty((len(feats), 3), np.float32)
+        with torch.inference_mode():
+            for s in range(0, len(feats), CHUNK):
+                f = torch.from_numpy(feats[s : s + CHUNK])[None]  # (1, n, F)
+                out[s : s + CHUNK] = self.network.colour(f, appearance)[0].numpy()
+        return out
+
+    def query_logits(self, points: np.ndarray, shape: np.ndarray) -> np.ndarray:
+        """Occupancy logits (N,) at points (N, 3); -inf outside the object cube."""
+        pts = np.asarray(points, dtype=np.float32).reshape(-1, 3)
+        logits, _ = self._geometry(pts, self._code(shape, self.codebook.shape_dim, "shape"))
+        logits[~_inside_cube(pts)] = -np.inf
+        return logits
+
+    def query_occupancy(self, points: np.ndarray, shape: np.ndarray) -> np.ndarray:
+        """Occupancy in [0, 1] (N,) float32 at object-frame points (N, 3); 0 outside the cube."""
+        logits = self.query_logits(points, shape)
+        return (1.0 / (1.0 + np.exp(-np.clip(logits, -60.0, 60.0)))).astype(np.float32)
+
+    def query(self, points: np.ndarray, shape: np.ndarray,
+              appearance: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Occupancy (N,) and linear albedo (N, 3), float32, at object-frame points (N, 3).
+
+        The per-sample network: every point through the trunk and the colour head.
+        """
+        pts = np.asarray(points, dtype=np.float32).reshape(-1, 3)
+        logits, feats = self._geometry(pts, self._code(shape, self.codebook.shape_dim, "shape"))
+        albedo = self._colour(feats, self._code(appearance, self.codebook.appearance_dim,
+                                                "appearance"))
+        inside = _inside_cube(pts)
+        occupancy = np.where(inside, 1.0 / (1.0 + np.exp(-np.clip(logits, -60.0, 60.0))), 0.0)
+        return occupancy.astype(np.float32), albedo
+
+    # --- grids -----------------------------------------------------------------------------
+    def bake_with_stats(self, shape: np.ndarray, appearance: np.ndarray, resolution: int = 64, *,
+                        clean: bool = True, steps: tuple[int, ...] = DEFAULT_STEPS,
+                        margin: float = DEFAULT_MARGIN) -> tuple[FieldGrid, BakeStats]:
+        """``bake`` and how many points the network evaluated at each level."""
+        if resolution < 2:
+            raise ValueError(f"resolution must be >= 2, got {resolution}")
+        s = self._code(shape, self.codebook.shape_dim, "shape")
+        a = self._code(appearance, self.codebook.appearance_dim, "appearance")
+        logits, albedo, stats = bake_arrays(lambda p: self._geometry(p, s),
+                                            lambda f: self._colour(f, a), resolution,
+                                            steps=steps, margin=margin)
+        occupancy = 1.0 / (1.0 + np.exp(-np.clip(logits, -60.0, 60.0)))
+        if clean:
+            occupancy, _ = clean_occupancy(occupancy, self.config.prior.clean_fraction)
+        density = (SIGMA_MAX * occupancy).astype(np.float32)
+        return FieldGrid(density=density, albedo=np.clip(albedo, 0.0, 1.0)), stats
+
+    def bake(self, shape: np.ndarray, appearance: np.ndarray, resolution: int = 64, *,
+             clean: bool = True) -> FieldGrid:
+        """The field of one code pair on a resolution^3 grid over [-1, 1]^3 (grid.py layout).
+
+        density = SIGMA_MAX * occupancy, albedo linear RGB. ``clean`` removes floating parts
+        below ``config.prior.clean_fraction`` of the volume.
+        """
+        return self.bake_with_stats(shape, appearance, resolution, clean=clean)[0]
+
+    # --- file ------------------------------------------------------------------------------
+    def tensors(self) -> dict[str, np.ndarray]:
+        out = {f"net.{k}": v.detach().numpy().copy() for k, v in self.network.state_dict().items()}
+        out.update(codebook_tensors(self.codebook))
+        return out
+
+    def save(self, path: str | os.PathLike) -> None:
+        """Write the model file (atomically)."""
+        write_model_file(path, self.tensors(), {
+            "config": self.config.to_dict(),
+            "names": list(self.codebook.names),
+            "families": list(self.codebook.families),
+            "sources": list(self.sources),
+            "prior": self.prior_info,
+            "metrics": self.metrics,
+        })
+
+    @property
+    def parameter_count(self) -> int:
+        return sum(p.numel() for p in self.network.parameters())
+
+
+def network_from_tensors(cfg: TrainConfig, tensors: dict[str, np.ndarray], where: str) -> FieldNetwork:
+    """A FieldNetwork with the ``net.*`` arrays loaded; a mismatch is a ModelFileError."""
+    net = FieldNetwork(cfg.network)
+    state = {k[4:]: torch.from_numpy(np.array(v)) for k, v in tensors.items() if k.startswith("net.")}
+    expected = net.state_dict()
+    if set(state) != set(expected) or any(state[k].shape != expected[k].shape for k in state):
+        raise ModelFileError("the network weights do not match the stored config", where=where)
+    net.load_state_dict(state)
+    return net
+
+
+def load_model(path: str | os.PathLike) -> Model:
+    """Read a model file written by ``genfield train`` or ``genfield fit``."""
+    where = str(path)
+    contents = read_model_file(path)
+    meta = contents.meta
+    try:
+        cfg = config_from_dict(meta["config"], where=f"{where} (stored config)")
+    except ConfigError as err:
+        raise ModelFileError(f"stored config is not valid: {err.message}", where=where) from None
+    book = codebook_from_contents(contents.tensors, meta["names"], meta["families"], where)
+    sources = tuple(str(s) for s in meta["sources"])
+    if len(sources) != len(book.names):
+        raise ModelFileError("the sources list does not match the code table", where=where)
+    net = network_from_tensors(cfg, contents.tensors, where)
+    log.debug("loaded %s: %d codes", Path(path).name, len(book.names))
+    return Model(config=cfg, network=net, codebook=book, sources=sources,
+                 metrics=meta["metrics"], prior_info=meta["prior"])
