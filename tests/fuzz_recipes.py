@@ -27,7 +27,7 @@ from genfield.field.codebook import CodeBook
 
 RECIPES = Path(__file__).resolve().parent.parent / "recipes"
 FAMILIES = ("washer", "hex_nut", "l_bracket", "bushing", "cup", "bowl", "bottle")
-NAMES = tuple(f"{f}-{i:04d}" for f in FAMILIES for i in range(3))
+NAMES = tuple(f"{f}-{i:04d}" for f in FAMILIES for i in range(8))
 
 
 def toy_codebook(names: tuple[str, ...] = NAMES, shape_dim: int = 6, appearance_dim: int = 4,
