@@ -118,11 +118,12 @@ def test_camera_inside_an_object_cube():
 
 
 def test_auto_resolution_follows_screen_size():
-    opts = RenderOptions()
+    opts = RenderOptions(cells_per_pixel=1.0)
     assert auto_resolution(opts, 10.0) == 17
     assert auto_resolution(opts, 20.0) == 33
     assert auto_resolution(opts, 40.0) == 65
     assert auto_resolution(opts, math.inf) == 65
+    assert auto_resolution(RenderOptions(), 10.0) == 33  # two cells a pixel by default
     assert auto_resolution(RenderOptions(max_resolution=33), 200.0) == 33
     assert auto_resolution(RenderOptions(grid_resolution=40), 5.0) == 40
     # a cube 2 s wide at depth z spans 2 s f / z pixels (pinhole)

@@ -99,8 +99,10 @@ def composite(samples: list[Samples], delta: np.ndarray, n_rays: int) -> Merged:
     dl = delta[ray]  # (U,)
     tau = sigma * dl  # optical depth of each interval
     total = np.cumsum(tau)
-    lead = np.flatnonzero(np.r_[True, ray[1:] != ray[:-1]]) if len(ray) else np.zeros(0, np.int64)
-    seg = np.cumsum(np.r_[True, ray[1:] != ray[:-1]]) - 1 if len(ray) else np.zeros(0, np.int64)
+    new = np.empty(len(ray), bool)
+    new[:1], new[1:] = True, ray[1:] != ray[:-1]  # first sample of each ray
+    lead = np.flatnonzero(new)
+    seg = np.cumsum(new) - 1
     before = total - tau - (total[lead] - tau[lead])[seg]  # optical depth before each interval
     weight = np.exp(-before) * -np.expm1(-tau)  # w_i = T_i alpha_i
     alpha = np.bincount(ray, weight, minlength=n_rays)

@@ -118,14 +118,18 @@ def _first_per_owner(owner: np.ndarray, flagged: np.ndarray) -> tuple[np.ndarray
     if len(at) == 0:
         return at, at
     o = owner.take(at)
-    lead = at.compress(np.r_[True, o[1:] != o[:-1]])
+    new = np.empty(len(o), bool)
+    new[0], new[1:] = True, o[1:] != o[:-1]
+    lead = at.compress(new)
     return lead, owner.take(lead)
 
 
 def _cell_index(points: np.ndarray, cells: int, inv_size: float) -> np.ndarray:
     """Flat ``indexing="ij"`` index of the cell (of ``cells`` a side) holding each point (3, n)."""
-    c = ((np.clip(points, -1.0, 1.0) + 1.0) * inv_size).astype(np.int64)
-    np.minimum(c, cells - 1, out=c)
+    u = points + np.float32(1.0)
+    u *= np.float32(inv_size)
+    np.clip(u, 0.0, cells - 1, out=u)  # points on or beyond a face belong to its cells
+    c = u.astype(np.int32)
     return (c[0] * cells + c[1]) * cells + c[2]
 
 
@@ -167,11 +171,11 @@ def march_object(placed: Placed, ray_ids: np.ndarray, origins: np.ndarray, direc
 
     # 2. fine steps of those coarse steps, judged by their cell: empty ones go, full ones are
     # SIGMA_MAX, the first deep one ends the object on that ray; only mixed ones are sampled
-    owner, fine = _ragged_arange(f.take(pair))
+    first = np.maximum(jc, j0.take(pair))  # the fine steps of each coarse step inside the cube
+    count = np.maximum(np.minimum(jc + f.take(pair) - 1, last.take(pair)) - first + 1, 0)
+    owner, fine = _ragged_arange(count)
     fpair = pair.take(owner)
-    fj = jc.take(owner) + fine  # (n,) fine steps
-    inside = np.flatnonzero((fj >= j0.take(fpair)) & (fj <= last.take(fpair)))
-    fpair, fj = fpair.take(inside), fj.take(inside)
+    fj = first.take(owner) + fine  # (n,) fine steps
     pts = _points(o3, d3, fpair, fj * dl.take(fpair))  # (3, n)
     state = grid.fine.take(_cell_index(pts, fine_cells, 1.0 / grid.cell))
     lead, owners = _first_per_owner(fpair, state == DEEP)

@@ -18,8 +18,9 @@ class RenderOptions:
 
     threads: int = 2  # torch intra-op threads for the render (torch.set_num_threads)
     grid_resolution: int | None = None  # points per axis of baked grids; None: from screen size
-    cells_per_pixel: float = 1.0  # with grid_resolution None: at least this many grid cells
-    # across the object cube per pixel it spans on screen (the grid samples as finely as the image)
+    cells_per_pixel: float = 2.0  # with grid_resolution None: at least this many grid cells
+    # across the object cube per pixel it spans on screen (twice the image's sampling rate: thin
+    # walls of built-in parts, ~half a cell at 1 cell a pixel, broke up into holes)
     min_resolution: int = 17  # with grid_resolution None: the smallest grid baked
     max_resolution: int = 65  # with grid_resolution None: the largest grid baked
     step: float = 0.5  # ray step, in grid cells of the finest object the ray meets

@@ -10,6 +10,7 @@ floor and the backdrop.
 
 from __future__ import annotations
 
+import functools
 import logging
 import math
 from typing import Any
@@ -46,6 +47,39 @@ def cube_pixels(camera: Camera, pose: Pose) -> float:
     return 2.0 * pose.scale * max(camera.fx, camera.fy) / z
 
 
+def screen_rays(camera: Camera, pose: Pose) -> np.ndarray:
+    """Flat indices of the pixels whose rays can meet the object's cube, sorted.
+
+    The image of a convex solid lies within the bounding rectangle of its projected corners
+    when all corners are in front of the camera (perspective maps segments to segments); a
+    cube that reaches the camera's plane gets every pixel.
+    """
+    corners = np.array([[x, y, z] for x in (-1, 1) for y in (-1, 1) for z in (-1, 1)], float)
+    world = pose.t + pose.scale * corners @ pose.R.T  # (8, 3)
+    cam = world @ camera.w2c[:3, :3].T + camera.w2c[:3, 3]
+    w, h = camera.width, camera.height
+    if np.any(cam[:, 2] <= 1e-9):
+        return np.arange(w * h)
+    u = camera.fx * cam[:, 0] / cam[:, 2] + camera.cx
+    v = camera.fy * cam[:, 1] / cam[:, 2] + camera.cy
+    # pixel centres at col + 0.5 within [min u, max u], one pixel of margin for rounding
+    c0, c1 = max(int(np.floor(u.min() - 0.5)) - 1, 0), min(int(np.ceil(u.max() - 0.5)) + 1, w - 1)
+    r0, r1 = max(int(np.floor(v.min() - 0.5)) - 1, 0), min(int(np.ceil(v.max() - 0.5)) + 1, h - 1)
+    if c1 < c0 or r1 < r0:
+        return np.zeros(0, np.int64)
+    return (np.arange(r0, r1 + 1)[:, None] * w + np.arange(c0, c1 + 1)[None, :]).ravel()
+
+
+@functools.lru_cache(maxsize=8)
+def _camera_rays(camera: Camera) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Pixel rays of a camera as read-only (3, N) origins, (3, N) directions, (N,) z_per_t."""
+    rays = pixel_rays(camera)
+    out = (np.ascontiguousarray(rays.origins.T), np.ascontiguousarray(rays.directions.T), rays.z_per_t)
+    for a in out:
+        a.setflags(write=False)
+    return out
+
+
 def _chunks(ids: np.ndarray, size: int):
     for start in range(0, len(ids), size):
         yield ids[start : start + size]
@@ -73,8 +107,8 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
     marching = [i for i, p in enumerate(placed) if not p.grid.is_empty]
     active = [placed[i] for i in marching]
 
-    rays = pixel_rays(cam)
-    origins, directions = rays.origins, rays.directions
+    o3, d3, z_per_t = _camera_rays(cam)  # (3, N), (3, N), (N,)
+    origins, directions = o3.T, d3.T  # (N, 3) views
     light = unit(scene.light.direction)
     backdrop = scene.backdrop
     t_floor = floor_distance(origins, directions) if backdrop.floor else np.full(n, np.inf)
@@ -87,10 +121,13 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
     albedo_sum = np.zeros((n, 3))
     direct_sum = np.zeros((n, 3))
     normal_sum = np.zeros((n, 3))
-    o3, d3 = np.ascontiguousarray(origins.T), np.ascontiguousarray(directions.T)  # (3, N)
-    intervals = [box_interval(p, o3, d3) for p in active]
+    intervals = []
     met = np.zeros(n, bool)
-    for t0, t1 in intervals:
+    for i, p in zip(marching, active, strict=True):
+        ids = screen_rays(cam, scene.objects[i].pose)
+        t0, t1 = np.full(n, np.inf), np.full(n, -np.inf)
+        t0[ids], t1[ids] = box_interval(p, o3.take(ids, axis=1), d3.take(ids, axis=1))
+        intervals.append((t0, t1))
         met |= (t1 > t0) & (t0 < t_floor)
     for ids in _chunks(np.flatnonzero(met), options.chunk_rays):
         sub = [(t0.take(ids), t1.take(ids)) for t0, t1 in intervals]
@@ -132,7 +169,7 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
         behind = np.where(hit[:, None], floor_rgb, behind)
     rgb = rgb_objects + (1.0 - alpha)[:, None] * behind  # objects over what lies behind them
 
-    depth = np.where(on_object, t_surface, np.where(on_floor, t_floor, np.inf)) * rays.z_per_t
+    depth = np.where(on_object, t_surface, np.where(on_floor, t_floor, np.inf)) * z_per_t
     normals = np.where(on_object[:, None], normals, np.where(on_floor[:, None], floor_normal, 0.0))
     amodal = (alone >= MASK_ALPHA).reshape(k_objects, h, w) if options.amodal else None
     return RenderOutput(

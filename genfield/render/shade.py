@@ -56,6 +56,12 @@ def floor_distance(origins: np.ndarray, directions: np.ndarray) -> np.ndarray:
     return np.where(np.isfinite(t) & (t > 0.0), t, np.inf)
 
 
+def per_ray(ray: np.ndarray, values: np.ndarray, n_rays: int) -> np.ndarray:
+    """(n_rays, 3) sums of (m, 3) ``values`` by ray, one bincount for all three channels."""
+    flat = (ray[:, None] * 3 + np.arange(3)).ravel()
+    return np.bincount(flat, values.ravel(), minlength=3 * n_rays).reshape(n_rays, 3)
+
+
 def surface_terms(merged: Merged, samples: list[Samples], placed: list[Placed], light: np.ndarray,
                   n_rays: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Per ray: sum w a (N, 3), sum w a max(0, n.l) (N, 3) and sum w n (N, 3), world frame.
@@ -64,25 +70,24 @@ def surface_terms(merged: Merged, samples: list[Samples], placed: list[Placed], 
     density there; only samples with w >= SHADE_MIN_WEIGHT are looked up.
     """
     shaded = merged.weight >= SHADE_MIN_WEIGHT  # (U,)
-    albedo_sum = np.zeros((len(merged.ray), 3))  # sum_k sigma_k a_k per shared sample
-    gradient = np.zeros((len(merged.ray), 3))  # sum_k grad sigma_k, world, per metre^2
-    for s, slot, p in zip(samples, merged.slots, placed, strict=True):
-        pick = shaded[slot]
-        if not pick.any():
-            continue
-        f = sample(p.grid.features, s.points[:, pick])  # (m, 6): albedo, object-frame gradient
-        albedo_sum[slot[pick]] += s.sigma[pick, None] * f[:, :3]
-        # sigma_world(x) = sigma_obj(A x + b) / s with A = R^T / s: grad_world = R grad_obj / s^2
-        gradient[slot[pick]] += f[:, 3:] @ p.rotation.T / p.scale**2
     idx = np.flatnonzero(shaded)
-    ray, w = merged.ray[idx], merged.weight[idx]
-    albedo = albedo_sum[idx] / merged.sigma[idx, None]  # density-weighted mean
-    g = gradient[idx]
-    length = np.linalg.norm(g, axis=1, keepdims=True)
-    normal = np.where(length > 0.0, -g / np.maximum(length, 1e-30), 0.0)
+    where = np.cumsum(shaded) - 1  # shared slot -> row of the shaded ones
+    albedo_sum = np.zeros((len(idx), 3))  # sum_k sigma_k a_k per shaded sample
+    gradient = np.zeros((len(idx), 3))  # sum_k grad sigma_k, world, per metre^2
+    for s, slot, p in zip(samples, merged.slots, placed, strict=True):
+        pick = np.flatnonzero(shaded.take(slot))
+        if len(pick) == 0:
+            continue
+        rows = where.take(slot.take(pick))  # distinct: an object has one sample a slot
+        f = sample(p.grid.features, s.points.take(pick, axis=1))  # (m, 6): albedo, gradient
+        albedo_sum[rows] += s.sigma.take(pick)[:, None] * f[:, :3]
+        # sigma_world(x) = sigma_obj(A x + b) / s with A = R^T / s: grad_world = R grad_obj / s^2
+        gradient[rows] += f[:, 3:] @ (p.rotation.T / p.scale**2)
+    ray, w = merged.ray.take(idx), merged.weight.take(idx)
+    albedo = albedo_sum / merged.sigma.take(idx)[:, None]  # density-weighted mean
+    length = np.sqrt(np.einsum("ij,ij->i", gradient, gradient))[:, None]
+    normal = -gradient / np.maximum(length, 1e-30)  # 0 where the gradient vanishes
     cosine = np.maximum(normal @ light, 0.0)  # (m,)
-
-    def per_ray(values: np.ndarray) -> np.ndarray:
-        return np.stack([np.bincount(ray, values[:, c], minlength=n_rays) for c in range(3)], axis=1)
-
-    return per_ray(w[:, None] * albedo), per_ray((w * cosine)[:, None] * albedo), per_ray(w[:, None] * normal)
+    wa = w[:, None] * albedo
+    return (per_ray(ray, wa, n_rays), per_ray(ray, cosine[:, None] * wa, n_rays),
+            per_ray(ray, w[:, None] * normal, n_rays))
