@@ -59,7 +59,7 @@ def test_check_with_a_missing_model_is_a_usage_error(tmp_path):
 
 
 def test_show_json_is_plain_data():
-    proc = subprocess.run([sys.executable, "-m", "genfield", "check", "recipes/demo-workbench.gfr",
+    proc = subprocess.run([sys.executable, "-m", "genfield", "check", "recipes/workbench.gfr",
                            "--show", "1"], capture_output=True, text=True, timeout=120, check=True)
     scene = json.loads(proc.stdout)
     assert scene["index"] == 0 and scene["seed"] == 1 and scene["objects"]
