@@ -170,3 +170,16 @@ def test_checking_does_not_import_torch():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert out.returncode == 0, out.stderr
     assert "TORCH False" in out.stdout
+
+
+def test_the_reference_in_developers_md_names_every_block_and_setting():
+    from genfield.recipe.schema import BLOCKS, OUTPUTS, TOP_SETTINGS
+
+    text = open("DEVELOPERS.md", encoding="utf-8").read()
+    section = text[text.index("## The recipe language"):]
+    for kind, schema in BLOCKS.items():
+        assert f"`{kind}" in section, kind
+        for key in schema.settings:
+            assert f"`{key}" in section or f" {key} " in section, (kind, key)
+    for word in (*TOP_SETTINGS, *OUTPUTS):
+        assert word in section, word

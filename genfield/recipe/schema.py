@@ -1,8 +1,8 @@
 """Which blocks a recipe may hold, the settings of each, and what each setting takes.
 
 The grammar only says how a recipe is written; this table says what it may say. The checker
-reads it to type-check every value, to name the nearest known setting when one is misspelt,
-and to print the reference (DEVELOPERS.md mirrors it).
+reads it to type-check every value and to name the nearest known setting when one is
+misspelt; DEVELOPERS.md's reference mirrors it (a test holds the two together).
 """
 
 from __future__ import annotations

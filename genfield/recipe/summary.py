@@ -54,8 +54,14 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
     per_object = [f"{p.name} = {p.source}" for p in recipe.params.values()
                   if p.random and p.per_object]
     per_object += [f"{name} (a {kind_of(recipe, name)})" for per_obj, name in drawn if per_obj]
-    per_object_codes = [f"{o.name}.{k} = {t}" for o in recipe.objects for k, t in o.code_text
-                        if any(w in t for w in ("pick", "prior", ".."))]
+    # a code varies per object when it draws on its own or reads a per-object constant
+    own = {c.name for c in recipe.constants if c.per_object and c.name in random_constants}
+    per_object_codes = []
+    for o in recipe.objects:
+        nodes = {"asset": [o.joint] if o.joint is not None else [o.shape, o.appearance],
+                 "shape": [o.shape], "appearance": [o.appearance]}
+        per_object_codes += [f"{o.name}.{k} = {t}" for k, t in o.code_text
+                             if any(is_random(n, own) for n in nodes[k])]
     lines.append("random per image: " + ("; ".join(per_image) or "nothing"))
     lines.append("random per object: " + ("; ".join(per_object + per_object_codes) or "nothing"))
     for s in recipe.sweeps:

@@ -121,7 +121,7 @@ def _vary_values(recipe: Recipe, name: str, values: str | Sequence[float | str])
     out: list[float] = []
     for x in [values] if isinstance(values, str) else values:
         if isinstance(x, str):
-            program = parse_text(f"v {x}\n", f"--vary {name}")
+            program = parse_text(f"{name} {x}\n", "--vary")  # read as a sweep block's line
             setting = program.statements[0] if len(program.statements) == 1 else None
             if not isinstance(setting, ast.Setting):
                 raise RecipeError(f"cannot read the values {x!r} for {name}", where="--vary")
