@@ -109,3 +109,21 @@ def test_factors_record_the_named_codes_and_projected_boxes(dataset, job):
 def test_two_workers_render_the_same_bytes_through_the_real_renderer(dataset, job, tmp_path):
     write_dataset(tmp_path / "two", job, workers=2)
     assert tree(tmp_path / "two") == tree(dataset)
+
+
+def test_scene_dataset_reads_back_the_written_masks_and_boxes(dataset):
+    from genfield.dataset import SceneDataset
+
+    coco = COCO(str(dataset / "annotations.json"))
+    data = SceneDataset(dataset)
+    for k in range(len(data)):
+        image, target = data[k]
+        index = int(target["image_id"])
+        ids = _masks(dataset, index)
+        assert image.shape == (3, *ids.shape)
+        anns = coco.loadAnns(coco.getAnnIds(imgIds=index))
+        assert target["instance_ids"].tolist() == [a["instance_id"] for a in anns]
+        for n, ann in enumerate(anns):
+            assert np.array_equal(target["masks"][n].numpy(), ids == ann["instance_id"])
+            x, y, w, h = ann["bbox"]
+            assert target["boxes"][n].tolist() == [x, y, x + w, y + h]
