@@ -147,3 +147,17 @@ def test_split_rule_is_deterministic_and_meets_the_fractions():
         assert abs(names[:200].count(name) / 200 - f) < 0.03  # and so is every prefix
     assert split_position(0) == 0.0 and 0.0 <= split_position(10**12) < 1.0
     assert [split_of(i, fractions) for i in range(50)] == names[:50]
+
+
+def test_amodal_masks_are_stored_as_rle_when_asked(tmp_path):
+    from dataclasses import replace
+
+    job = replace(spec(count=2, objects=5, size=24), amodal_masks=True)
+    write_dataset(tmp_path / "ds", job)
+    for line in (tmp_path / "ds" / "factors.jsonl").read_text().splitlines():
+        factors = json.loads(line)
+        out = trace(draw(json.loads(job.recipe_text), job.seed, factors["index"]))
+        for k, obj in enumerate(factors["objects"]):
+            rle = {**obj["amodal_mask"], "counts": obj["amodal_mask"]["counts"].encode()}
+            assert np.array_equal(mask_utils.decode(rle).astype(bool), out.amodal[k])
+            assert obj["amodal_pixels"] == int(out.amodal[k].sum())
