@@ -397,3 +397,20 @@ def test_the_cli_prints_one_line_and_the_caret(tmp_path, capsys):
     err = capsys.readouterr().err.splitlines()
     assert err == [f"genfield: error: {path}:2:7: camera fov must be between 0deg and 180deg "
                    "(both excluded), got 200deg", "    fov 200deg", "        ^"]
+
+
+def test_deep_nesting_is_refused_before_any_recursion():
+    deep = "a = " + "(" * 500 + "1, 2" + "), 1" * 499 + ")\n"
+    with pytest.raises(RecipeError, match="this value is nested more than 48 deep"):
+        parse_text(deep, "r.gfr")
+
+
+def test_placement_stops_at_its_budget(tmp_path, monkeypatch):
+    import genfield.recipe.draw as draw
+
+    monkeypatch.setattr(draw, "BUDGET", 500)
+    text = ('object a {\n  asset "x"\n  count 5\n  scale 3cm\n  on floor\n'
+            "  inside (-6cm, -6cm)..(6cm, 6cm)\n}\nlayout {\n  tries 100000\n}\n")
+    with pytest.raises(RecipeError, match=r"placement gave up after 500 candidate positions "
+                       r"\(a #2 was being placed\)"):
+        draw_scene(loads(text, path=tmp_path / "r.gfr"), None, 0, 0)

@@ -44,6 +44,7 @@ from genfield.seeds import rng
 
 SQRT3 = math.sqrt(3.0)
 ROUNDS = 8  # fresh starts of a layout before placement gives up
+BUDGET = 200_000  # candidate positions per scene, all objects and starts together
 
 
 def check_overrides(recipe: Recipe, overrides: Mapping[str, float]) -> dict[str, float]:
@@ -251,23 +252,30 @@ def _objects(recipe: Recipe, codebook: CodeBook | None, seed: int, index: int,
 
 def _place(pending: list[_Pending], recipe: Recipe, gap: float) -> None:
     """Rejection sampling: the largest objects first, ``tries`` candidates each, and up to
-    ROUNDS fresh starts of the whole layout before giving up with the objects' names."""
+    ROUNDS fresh starts of the whole layout before giving up with the objects' names; at most
+    BUDGET candidates in all, so that no recipe can keep a worker busy for hours."""
     layout = recipe.layout
     order = sorted(pending, key=lambda p: -p.radius)  # stable: ties keep the recipe's order
-    hits: list[str] = []
+    radii = np.array([p.radius for p in order])  # (n,)
     rounds = ROUNDS if layout.apart and any(p.obj.position_random for p in pending) else 1
+    spent = 0
     for _ in range(rounds):
-        placed: list[_Pending] = []
-        for p in order:
+        centres = np.zeros((len(order), 3))  # (n, 3) the placed ones fill the first rows
+        for k, p in enumerate(order):
             tries = layout.tries if (p.obj.position_random and layout.apart) else 1
             for _ in range(tries):
+                spent += 1
                 p.centre = _centre(p.obj, p.scale, p.rot, p.place)
-                hits = [q.name for q in placed if layout.apart and float(
-                    np.linalg.norm(p.centre - q.centre)) < p.radius + q.radius + gap]
-                if not hits:
-                    placed.append(p)
+                near = np.linalg.norm(centres[:k] - p.centre, axis=1) < radii[:k] + p.radius + gap
+                if not (layout.apart and near.any()):
+                    centres[k] = p.centre
                     break
+                if spent >= BUDGET:
+                    raise error_at(f"placement gave up after {BUDGET} candidate positions "
+                                   f"({p.name} was being placed)", p.obj.pos,
+                                   hint="give the objects more room or make them fewer")
             else:
+                hits = [q.name for q, hit in zip(order[:k], near, strict=True) if hit]
                 failed = p
                 break
         else:

@@ -14,13 +14,14 @@ import functools
 import math
 import re
 
-from lark import Lark, Token, Transformer, v_args
+from lark import Lark, Token, Transformer, Tree, v_args
 from lark.exceptions import UnexpectedInput, VisitError
 
 from genfield.errors import RecipeError
 from genfield.paths import grammar_file
 from genfield.recipe import ast
 
+MAX_DEPTH = 48  # nesting of a parse tree; real recipes stay under 15
 _NUMBER = re.compile(r"(-?[0-9]+(?:\.[0-9]+)?(?:[eE][+-]?[0-9]+)?)(mm|cm|m|deg|rad|px)?")
 _COMMENT = re.compile(r"#([ \t#][^\n]*)?")
 # Comments are carried by the line-end token; the lexer hands each one to this list.
@@ -68,6 +69,7 @@ def parse_text(text: str, file: str = "<recipe>") -> ast.Program:
         raise syntax_error(err, text, file) from None
     finally:
         _line_ends.reset(reset)
+    _check_depth(tree, file, lines)
     try:
         statements = _Lower(file, lines).transform(tree)
     except VisitError as err:
@@ -75,6 +77,21 @@ def parse_text(text: str, file: str = "<recipe>") -> ast.Program:
             raise err.orig_exc from None
         raise
     return ast.Program(file, tuple(statements), _comments(sink, lines))
+
+
+def _check_depth(tree: Tree, file: str, lines: list[str]) -> None:
+    """Refuse values nested deeper than MAX_DEPTH, so that every later step (which walks
+    the tree recursively) stays far inside Python's recursion limit."""
+    stack = [(tree, 1)]
+    while stack:
+        node, depth = stack.pop()
+        if depth > MAX_DEPTH:
+            line, column = node.meta.line, node.meta.column
+            text = lines[line - 1] if 0 < line <= len(lines) else ""
+            pos = ast.Pos(file, line, column, text)
+            raise RecipeError(f"this value is nested more than {MAX_DEPTH} deep", where=pos.where,
+                              context=pos.context(), hint="write it out more simply")
+        stack.extend((child, depth + 1) for child in node.children if isinstance(child, Tree))
 
 
 def _comments(tokens: list[Token], lines: list[str]) -> tuple[ast.Comment, ...]:
