@@ -68,7 +68,7 @@ SYNTAX = [
     ('a = 1 to\n',
      'r.gfr:1:9: expected a value; got the end of the line'),
     ('x = 1e999\n',
-     'r.gfr:1:5: the number 1e999 is too large'),
+     'r.gfr:1:5: the number 1e999 is too large (numbers in a recipe stay within +-1e+12)'),
     ('camera {\n  azimuth 10deg..20deg steps 2.5\n}\n',
      'r.gfr:2:30: the number of steps must be a whole number, got 2.5'),
     ('a.b = 3\n',

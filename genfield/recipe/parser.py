@@ -22,6 +22,7 @@ from genfield.paths import grammar_file
 from genfield.recipe import ast
 
 MAX_DEPTH = 48  # nesting of a parse tree; real recipes stay under 15
+MAX_NUMBER = 1e12  # larger numbers are mistakes, and their sums and spans stay finite
 _NUMBER = re.compile(r"(-?[0-9]+(?:\.[0-9]+)?(?:[eE][+-]?[0-9]+)?)(mm|cm|m|deg|rad|px)?")
 _COMMENT = re.compile(r"#([ \t#][^\n]*)?")
 # Comments are carried by the line-end token; the lexer hands each one to this list.
@@ -269,6 +270,7 @@ class _Lower(Transformer):
         (tok,) = children
         match = _NUMBER.fullmatch(str(tok))  # the same pattern as the grammar's NUMBER
         value = float(match.group(1))
-        if not math.isfinite(value):
-            raise self._error(f"the number {tok} is too large", self._tok(tok))
+        if not math.isfinite(value) or abs(value) > MAX_NUMBER:
+            raise self._error(f"the number {tok} is too large", self._tok(tok),
+                              hint=f"numbers in a recipe stay within +-{MAX_NUMBER:g}")
         return ast.Quantity(value, match.group(2) or "", literal=str(tok), pos=self._tok(tok))

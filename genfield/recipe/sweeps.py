@@ -21,6 +21,9 @@ from genfield.recipe.spec import Recipe, SweepSpec
 from genfield.recipe.values import show
 
 
+MAX_FRAMES = 10_000  # frames of one sweep; a sheet of more is a mistake
+
+
 @dataclass(frozen=True)
 class Frame:
     """One picture of a sweep: the overrides for draw_scene and a caption."""
@@ -48,8 +51,8 @@ def _series(exprs: Sequence[ast.Expr], info: ParamInfo, lowering) -> tuple[float
 
     for e in exprs:
         if isinstance(e, ast.Steps):
-            if e.count < 2:
-                raise error_at(f"steps makes 2 or more values, got {e.count}", e.pos)
+            if not 2 <= e.count <= MAX_FRAMES:
+                raise error_at(f"steps makes 2 to {MAX_FRAMES} values, got {e.count}", e.pos)
             lo, hi = one(e.lo), one(e.hi)
             out.extend(lo + (hi - lo) * k / (e.count - 1) for k in range(e.count))
         else:
@@ -79,6 +82,9 @@ def lower_sweep(block: ast.Block, i: int, params: dict[str, ParamInfo], lowering
         raise error_at("a sweep block names one or two parameters and their values", block.pos,
                        hint="for example: camera.azimuth 0deg..315deg steps 8")
     zipped = mode == "zip"
+    frames = len(series[0][1]) * (len(series[1][1]) if len(series) == 2 and not zipped else 1)
+    if frames > MAX_FRAMES:
+        raise error_at(f"this sweep makes {frames} frames; at most {MAX_FRAMES}", block.pos)
     if zipped and len(series) == 2 and len(series[0][1]) != len(series[1][1]):
         raise error_at(f"mode zip walks both lists together, but {series[0][0]} has "
                        f"{len(series[0][1])} values and {series[1][0]} has {len(series[1][1])}",
