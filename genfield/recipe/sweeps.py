@@ -163,6 +163,10 @@ def sweep_frames(recipe: Recipe, vary: Sequence[tuple[str, str | Sequence[float 
             raise RecipeError(f"zipped lists must be as long as each other: {series[0][0]} has "
                               f"{len(series[0][1])} values, {series[1][0]} {len(series[1][1])}",
                               where="--vary")
+        frames = len(series[0][1]) * (len(series[1][1]) if len(series) == 2 and not zipped else 1)
+        if frames > MAX_FRAMES:
+            raise RecipeError(f"this sweep makes {frames} frames; at most {MAX_FRAMES}",
+                              where="--vary")
         return frames_of(series, recipe.params, zipped=zipped, index=index)
     chosen = list(recipe.sweeps)
     if name is not None:
