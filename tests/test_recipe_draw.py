@@ -140,13 +140,23 @@ def test_objects_on_the_floor_touch_it_with_their_lowest_corner(tmp_path):
         assert _box_bounds(o.pose)[0, 2] == pytest.approx(0.0, abs=1e-12)
 
 
-def test_objects_inside_a_region_keep_their_box_in_it(tmp_path):
+def test_objects_inside_a_region_stay_in_it_in_any_rotation(tmp_path):
     objs = many("  yaw 0deg..360deg\n  pitch -30deg..30deg\n  scale 1cm..3cm\n"
                 "  inside (-20cm, -10cm, 0)..(20cm, 10cm, 30cm)\n", tmp_path, n=300)
     lo, hi = np.array([-0.2, -0.1, 0.0]), np.array([0.2, 0.1, 0.3])
     for o in objs:
         bounds = _box_bounds(o.pose)
         assert np.all(bounds[0] >= lo - 1e-12) and np.all(bounds[1] <= hi + 1e-12)
+        # the bounding sphere is inside too, so any other rotation would be as well
+        r = math.sqrt(3) * o.pose.scale
+        assert np.all(o.pose.t - r >= lo - 1e-12) and np.all(o.pose.t + r <= hi + 1e-12)
+
+
+def test_a_yaw_sweep_turns_an_object_on_the_spot(tmp_path):
+    r = recipe("  yaw 0deg\n  scale 2cm\n  on floor\n  inside (-20cm, -20cm)..(20cm, 20cm)\n",
+               tmp_path)
+    poses = [draw_scene(r, None, 3, 0, {"a.yaw": y}).objects[0].pose for y in (0.0, 0.7, 2.0)]
+    assert len({p.translation for p in poses}) == 1
 
 
 def test_objects_kept_apart_do_not_touch_by_bounding_spheres():

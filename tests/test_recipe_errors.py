@@ -355,8 +355,8 @@ def test_an_impossible_placement_names_the_objects(tmp_path):
 def test_an_object_too_big_for_its_region_says_so(tmp_path):
     text = ('object bowl {\n  asset "bowl-0000"\n  scale 10cm\n  on floor\n'
             "  inside (-5cm, -5cm)..(5cm, 5cm)\n}\n")
-    with pytest.raises(RecipeError, match=r"bowl \(20cm across along x\) does not fit inside its "
-                       r"region \(-5cm..5cm\)"):
+    with pytest.raises(RecipeError, match=r"bowl \(bounding radius 17.3205cm\) does not fit inside "
+                       r"its region along x \(-5cm..5cm\)"):
         draw_scene(loads(text, path=tmp_path / "r.gfr"), None, 0, 0)
 
 

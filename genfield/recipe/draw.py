@@ -6,12 +6,13 @@ block's count, and per object instance (block b, instance k) its constants, pose
 placement. Image i is therefore the same on every run, whichever other images are drawn
 and in whatever order, and an override changes only the number it overrides.
 
-Placement: the rotated object cube s R [-1, 1]^3 reaches s (|Ri0| + |Ri1| + |Ri2|) from its
-centre along world axis i. An object on the floor gets that reach along z as its height,
-which puts the cube's lowest corner on z = 0; ``inside`` draws the centre uniformly where
-the cube's axis-aligned box stays in the region; with ``apart`` (the default) a placement is
-rejected while its bounding sphere (radius sqrt(3) s) comes nearer than ``gap`` to one
-already placed, up to ``tries`` times.
+Placement: the rotated object cube s R [-1, 1]^3 reaches s (|R20| + |R21| + |R22|) below its
+centre, so an object on the floor gets that as its height and its lowest corner lies on
+z = 0. The bounding sphere (radius sqrt(3) s, whatever the rotation) does the rest:
+``inside`` draws the centre uniformly where the sphere's footprint (and, off the floor, the
+sphere) stays in the region, so turning an object in a sweep never moves it; with
+``apart`` (the default) a placement is rejected while its sphere comes nearer than ``gap``
+to one already placed, up to ``tries`` times.
 """
 
 from __future__ import annotations
@@ -197,7 +198,7 @@ def _codes(obj: ObjectSpec, ctx: v.Context, codebook: CodeBook | None) -> tuple[
 
 def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> np.ndarray:
     """One candidate centre (3,) for an object of this scale and rotation."""
-    half = scale * np.abs(rot).sum(axis=1)  # (3,) half-size of the rotated cube's bounding box
+    radius = SQRT3 * scale  # the bounding sphere: the same whatever the rotation
     axes = 2 if obj.on_floor else 3
     if obj.at is not None:
         xyz = list(v.draw(obj.at, ctx))
@@ -205,10 +206,10 @@ def _centre(obj: ObjectSpec, scale: float, rot: np.ndarray, ctx: v.Context) -> n
         lo, hi = obj.inside
         xyz = []
         for axis in range(axes):
-            a, b = lo[axis] + half[axis], hi[axis] - half[axis]
+            a, b = lo[axis] + radius, hi[axis] - radius
             if a > b:
-                raise error_at(f"{obj.name} ({v.show(2 * half[axis], 'length')} across along "
-                               f"{v.AXES[axis]}) does not fit inside its region "
+                raise error_at(f"{obj.name} (bounding radius {v.show(radius, 'length')}) does not "
+                               f"fit inside its region along {v.AXES[axis]} "
                                f"({v.show(lo[axis], 'length')}..{v.show(hi[axis], 'length')})",
                                obj.pos, hint="make the region larger or the object smaller")
             xyz.append(float(ctx.rng.uniform(a, b)))
