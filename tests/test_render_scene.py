@@ -145,3 +145,19 @@ def test_public_entry_point():
     out = genfield.render_scene(MODEL, scene([obj(0, POSE_A, 1)]), options=genfield.RenderOptions(threads=1))
     assert out.rgb.shape == (64, 64, 3) and out.rgb.dtype == np.float32
     assert out.srgb8.dtype == np.uint8 and out.instance_ids.max() == 1
+
+
+@pytest.mark.parametrize("pose", [POSE_A, POSE_B, Pose.from_ypr((0.1, -0.1, 0.3), 1.0, 0.7, -0.4, 0.1)])
+def test_screen_rectangle_holds_every_pixel_whose_ray_meets_the_cube(pose):
+    from genfield.render.camera import pixel_rays
+    from genfield.render.grids import prepare
+    from genfield.render.march import Placed, box_interval
+    from genfield.render.renderer import screen_rays
+
+    rays = pixel_rays(CAMERA)
+    placed = Placed.make(prepare(MODEL.bake(MODEL.shape_code(0), MODEL.appearance_code(0), 17)), pose)
+    t0, t1 = box_interval(placed, np.ascontiguousarray(rays.origins.T), np.ascontiguousarray(rays.directions.T))
+    hits = np.flatnonzero(t1 > t0)
+    chosen = screen_rays(CAMERA, pose)
+    assert len(hits) and np.isin(hits, chosen).all()
+    assert len(chosen) < 64 * 64  # and it does cull

@@ -91,7 +91,16 @@ class GridCache:
 
     def get(self, model: Any, shape: np.ndarray, appearance: np.ndarray, resolution: int) -> RenderGrid:
         """The prepared grid of a code pair: from memory, else disk, else ``model.bake``."""
+        return self.get_many(model, [(shape, appearance, resolution)])[0]
+
+    def get_many(self, model: Any, requests: list[tuple[np.ndarray, np.ndarray, int]]) -> list[RenderGrid]:
+        """``get`` for several (shape, appearance, resolution) of one model; the model's
+        identity (a hash of its weights, not free) is read once."""
         ident = model_identity(model)
+        return [self._get(model, ident, *r) for r in requests]
+
+    def _get(self, model: Any, ident: str | None, shape: np.ndarray, appearance: np.ndarray,
+             resolution: int) -> RenderGrid:
         key = (ident if ident is not None else f"object-{id(model)}", code_key(shape, appearance, resolution))
         entry = self._entries.get(key)
         if entry is not None and (entry.owner is None or entry.owner() is model):

@@ -99,11 +99,10 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
     k_objects = len(scene.objects)
     if cache is None:
         cache = default_cache(options.memory_cache_mb, options.disk_cache, options.disk_cache_mb)
-    placed = [
-        Placed.make(cache.get(model, obj.shape.array, obj.appearance.array,
-                              auto_resolution(options, cube_pixels(cam, obj.pose))), obj.pose)
-        for obj in scene.objects
-    ]
+    grids = cache.get_many(model, [(obj.shape.array, obj.appearance.array,
+                                    auto_resolution(options, cube_pixels(cam, obj.pose)))
+                                   for obj in scene.objects])
+    placed = [Placed.make(g, obj.pose) for g, obj in zip(grids, scene.objects, strict=True)]
     marching = [i for i, p in enumerate(placed) if not p.grid.is_empty]
     active = [placed[i] for i in marching]
 
