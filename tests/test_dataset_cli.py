@@ -73,3 +73,11 @@ def test_a_recipe_that_names_no_model_is_refused(tmp_path, capsys):
     (tmp_path / "r.gfr").write_text(RECIPE.replace('model "model.gfm"\n', ""))
     assert main(["render", str(tmp_path / "r.gfr"), "--out", str(tmp_path / "ds")]) == 2
     assert "names no model" in _one_error_line(capsys)
+
+
+def test_an_unknown_code_name_is_refused_before_the_folder_is_made(recipe, tmp_path, capsys):
+    (recipe.parent / "typo.gfr").write_text(RECIPE.replace('"cup-0000"', '"cup-000"'))
+    assert main(["render", str(recipe.parent / "typo.gfr"), "--out", str(tmp_path / "ds")]) == 2
+    line = _one_error_line(capsys)
+    assert "typo.gfr:" in line and "cup-000" in line
+    assert not (tmp_path / "ds").exists()

@@ -72,8 +72,11 @@ def analytic_pipeline(spec: JobSpec) -> AnalyticPipeline:
 def analytic_job(recipe_path: Path | str, assets: list[tuple[str, int]], *,
                  count: int | None = None, seed: int | None = None) -> JobSpec:
     """The job of a recipe file on the analytic model of ``assets``, (family, index) pairs."""
+    from genfield.assets.families import asset_name
+    from genfield.recipe.codes import check_codes
     from genfield.recipe.loader import load_recipe
 
     recipe = load_recipe(recipe_path, model=MODEL_NAME)
+    check_codes(recipe, one_hot_codebook([asset_name(family, int(i), 0) for family, i in assets]))
     model_bytes = json.dumps([[family, int(i)] for family, i in assets]).encode()
     return job_of(recipe, recipe_path, MODEL_NAME, model_bytes, count=count, seed=seed, factory=FACTORY)

@@ -202,9 +202,11 @@ def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
 
     Raises RecipeError for a bad recipe, UsageError for a bad option, ModelFileError for a
     model that cannot be read, DatasetError for an output genfield render does not write.
-    The model is loaded once here, so that its errors name the user's file, not a copy.
+    The model is loaded here, so that its errors (and the recipe's code names, checked
+    against it) name the user's files, not the workers' copies.
     """
     from genfield.field.model import load_model
+    from genfield.recipe.codes import check_codes
     from genfield.recipe.loader import load_recipe
 
     recipe = load_recipe(recipe_path, model=model)
@@ -216,7 +218,7 @@ def job_from_recipe(recipe_path: Path | str, *, model: Path | str | None = None,
     except OSError as err:
         raise ModelFileError(f"cannot read the model file: {err.strerror}", where=str(recipe.model_path),
                              hint="train one with 'genfield train', or give --model") from None
-    load_model(recipe.model_path)
+    check_codes(recipe, load_model(recipe.model_path).codebook)  # unknown names fail here
     return job_of(recipe, recipe_path, Path(recipe.model_path).name, model_bytes, count=count, seed=seed)
 
 
