@@ -91,12 +91,17 @@ def random_recipe(r: random.Random) -> str:
         out.append(f"spin = {_value(r, 0, 360, 'deg')}" + r.choice(["", " per object", " per image"]))
     out.append(f"area = (-{_num(r, 10, 40)}cm, -{_num(r, 10, 40)}cm)..({_num(r, 10, 40)}cm, "
                f"{_num(r, 10, 40)}cm)")
+    named = r.random() < 0.3  # fixed settings through constants
+    if named:
+        out += [f"n = {r.randint(1, 50)}", f"sz = {r.randint(16, 64)}x{r.randint(16, 64)}",
+                'tag = pick ["thing"]', f"flag = {r.choice(['yes', 'no'])}"]
     if r.random() < 0.6:
         train = round(r.uniform(0.5, 0.9), 2)
-        out += ["dataset {", f"  images {r.randint(1, 50)}", f"  seed {r.randint(0, 99)}",
+        out += ["dataset {", f"  images {'n' if named else r.randint(1, 50)}",
+                f"  seed {r.randint(0, 99)}",
                 f"  train {train}", f"  val {round(1 - train, 2)}",
                 "  outputs " + ", ".join(r.sample(["image", "mask", "depth", "normals"], 2)), "}"]
-    out += ["camera {", f"  size {r.randint(16, 256)}x{r.randint(16, 256)}",
+    out += ["camera {", f"  size {'sz' if named else f'{r.randint(16, 256)}x{r.randint(16, 256)}'}",
             f"  fov {_value(r, 20, 80, 'deg')}" if r.random() < 0.7 else f"  focal {_num(r, 50, 300)}px"]
     if r.random() < 0.7:
         out += [f"  distance {_value(r, 30, 120, 'cm')}", f"  elevation {_value(r, 5, 80, 'deg')}",
@@ -107,11 +112,13 @@ def random_recipe(r: random.Random) -> str:
     out.append("}")
     if r.random() < 0.5:
         out += ["light {", f"  elevation {_value(r, 10, 80, 'deg')}", f"  strength {_num(r, 0, 2)}",
-                "}"]
+                f"  shadows {'flag' if named else 'no'}", "}"]
     if r.random() < 0.5:
         out += ["backdrop {", "  top #d0d4d8", "  bottom #606468", "  floor #7a7570", "}"]
     for k in range(r.randint(1, 3)):
         out += [f"object part{k} {{", f"  count {r.randint(0, 2)} to {r.randint(2, 4)}"]
+        if named:
+            out.append("  label tag")
         if r.random() < 0.6:
             wearing = f" wearing {_code(r)}" if r.random() < 0.3 else ""
             out.append(f"  asset {_code(r)}{wearing}")

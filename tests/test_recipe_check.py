@@ -183,3 +183,14 @@ def test_the_reference_in_developers_md_names_every_block_and_setting():
             assert f"`{key}" in section or f" {key} " in section, (kind, key)
     for word in (*TOP_SETTINGS, *OUTPUTS):
         assert word in section, word
+
+
+def test_fixed_settings_may_come_from_constants(tmp_path):
+    r = check('n = 12\nsize = 64x48\nfile = "m.gfm"\nsh = yes\nk = 2\nmodel file\n'
+              "dataset {\n  images n\n  seed pick [3]\n  train 1\n}\ncamera {\n  size size\n}\n"
+              "light {\n  shadows sh\n}\nlayout {\n  tries k\n}\n"
+              'object a {\n  asset "x"\n  label pick ["q"]\n}\nsweep {\n  a.yaw 0deg\n  index k\n}\n',
+              tmp_path)
+    assert (r.dataset.count, r.dataset.seed, r.camera.width, r.light.shadows, r.layout.tries) == \
+        (12, 3, 64, True, 2)
+    assert r.classes == ("q",) and r.sweeps[0].index == 2 and r.model_path == tmp_path / "m.gfm"

@@ -51,10 +51,10 @@ class Checker:
         self.statements = statements
         later = {s.name: s.pos for s in statements if isinstance(s, ast.Constant)}
         self.known: dict[str, Known] = {}
-        self.lower = Lowering(self.known, later)
+        self.nodes: dict[str, object] = {}
+        self.lower = Lowering(self.known, later, self.nodes)
         self.params: dict[str, ParamInfo] = {}
         self.constants: list[ConstantSpec] = []
-        self.nodes: dict[str, object] = {}
         self.per_object: set[str] = set()
 
     # ---- parameters ----
@@ -206,7 +206,7 @@ class Checker:
 
     def _fixed(self, g: _Block, key: str, default):
         node = self._value(g, key, g.block.kind)
-        return default if node is None else node.value  # type: ignore[attr-defined]
+        return default if node is None else self.lower.static(node)
 
     def _exclusive(self, g: _Block, first: tuple[str, ...], second: tuple[str, ...], why: str) -> None:
         a = [k for k in first if k in g.settings]
@@ -230,7 +230,7 @@ class Checker:
         outputs = frozenset({"image", "mask"})
         if "outputs" in g.settings:
             slot = BLOCKS["dataset"].settings["outputs"]
-            outputs = frozenset(self.lower.fit(e, slot, "outputs").value  # type: ignore[attr-defined]
+            outputs = frozenset(self.lower.static(self.lower.fit(e, slot, "outputs"))
                                 for e in g.settings["outputs"].values)
         return DatasetSpec(int(self._fixed(g, "images", 100)), int(self._fixed(g, "seed", 0)),
                            splits, outputs)
@@ -398,7 +398,7 @@ class Checker:
         model_path = None
         if "model" in top:
             e = top["model"].values[0]
-            name = self.lower.fit(e, TOP_SETTINGS["model"], "model").value  # type: ignore[attr-defined]
+            name = self.lower.static(self.lower.fit(e, TOP_SETTINGS["model"], "model"))
             model_path = resolve(name, e.pos, "model file")
         model_path = model_override or model_path
         return Recipe(

@@ -18,6 +18,7 @@ from genfield.recipe import values as v
 from genfield.recipe.formatter import format_expr
 from genfield.recipe.names import error_at, nearest
 from genfield.recipe.schema import Bound, Slot
+from genfield.seeds import rng
 
 
 @dataclass(frozen=True)
@@ -51,12 +52,31 @@ def _unify(a: str | None, b: str | None, pos: ast.Pos, what: str) -> str | None:
     raise error_at(f"{what} mixes {v.KIND_SHORT[a]} and {v.KIND_SHORT[b]}", pos)
 
 
+class _FixedConstants(dict):
+    """The values of constants that cannot vary, worked out when first read."""
+
+    def __init__(self, lowering: Lowering) -> None:
+        super().__init__()
+        self.lowering = lowering
+
+    def __missing__(self, name: str) -> object:
+        value = self.lowering.static(self.lowering.nodes[name])
+        self[name] = value
+        return value
+
+
 class Lowering:
     """Expressions to value nodes, given the constants defined so far."""
 
-    def __init__(self, constants: dict[str, Known], later: dict[str, ast.Pos]) -> None:
+    def __init__(self, constants: dict[str, Known], later: dict[str, ast.Pos],
+                 nodes: dict[str, object] | None = None) -> None:
         self.constants = constants  # defined so far, in order
         self.later = later  # every constant of the recipe, for "used before defined"
+        self.nodes = {} if nodes is None else nodes  # their value nodes
+
+    def static(self, node: object) -> object:
+        """The one value a node that cannot vary takes (a setting that must be fixed)."""
+        return v.draw(node, v.Context(rng(0, 0, "fixed value"), _FixedConstants(self), {}))
 
     # ---- inference ----
 

@@ -69,7 +69,7 @@ def lower_sweep(block: ast.Block, i: int, params: dict[str, ParamInfo], lowering
         if s.key in schema:
             if len(s.values) > 1:
                 raise error_at(f"'{s.key}' takes one value, got {len(s.values)}", s.values[1].pos)
-            value = lowering.fit(s.values[0], schema[s.key], f"sweep {s.key}").value
+            value = lowering.static(lowering.fit(s.values[0], schema[s.key], f"sweep {s.key}"))
             mode, index = (value, index) if s.key == "mode" else (mode, int(value))
             continue
         if s.key not in params:
