@@ -20,7 +20,6 @@ from genfield.recipe.schema import BLOCKS, ParamInfo
 from genfield.recipe.spec import Recipe, SweepSpec
 from genfield.recipe.values import show
 
-
 MAX_FRAMES = 10_000  # frames of one sweep; a sheet of more is a mistake
 
 
