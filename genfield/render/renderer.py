@@ -13,6 +13,7 @@ from __future__ import annotations
 import functools
 import logging
 import math
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
@@ -85,45 +86,32 @@ def _chunks(ids: np.ndarray, size: int):
         yield ids[start : start + size]
 
 
-def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOptions(),
-                 cache: GridCache | None = None) -> RenderOutput:
-    """Render ``scene`` with the fields of ``model`` (anything with ``bake``; see DEVELOPERS.md).
+@dataclass
+class _Primary:
+    """Per-pixel results of marching the camera rays (N = H * W, K objects)."""
 
-    ``cache`` defaults to the process-wide one, bounded by ``options``.
-    """
-    torch.set_num_threads(options.threads)
-    torch.set_flush_denormal(True)
-    cam = scene.camera
-    h, w = cam.height, cam.width
-    n = h * w
-    k_objects = len(scene.objects)
-    if cache is None:
-        cache = default_cache(options.memory_cache_mb, options.disk_cache, options.disk_cache_mb)
-    grids = cache.get_many(model, [(obj.shape.array, obj.appearance.array,
-                                    auto_resolution(options, cube_pixels(cam, obj.pose)))
-                                   for obj in scene.objects])
-    placed = [Placed.make(g, obj.pose) for g, obj in zip(grids, scene.objects, strict=True)]
+    alpha: np.ndarray  # (N,)
+    t_surface: np.ndarray  # (N,) ray distance of the first object surface, inf: none
+    delta: np.ndarray  # (N,) ray step, inf where no object was met
+    shares: np.ndarray  # (K, N)
+    alone: np.ndarray  # (K, N)
+    albedo_sum: np.ndarray  # (N, 3) sum w a
+    direct_sum: np.ndarray  # (N, 3) sum w a max(0, n.l)
+    normal_sum: np.ndarray  # (N, 3) sum w n
+
+
+def _primary(scene: Scene, placed: list[Placed], o3: np.ndarray, d3: np.ndarray, t_floor: np.ndarray,
+             light: np.ndarray, options: RenderOptions) -> _Primary:
+    """March, composite and shade the camera rays that meet an object's cube, in chunks."""
+    n, k_objects = o3.shape[1], len(placed)
+    out = _Primary(np.zeros(n), np.full(n, np.inf), np.full(n, np.inf), np.zeros((k_objects, n)),
+                   np.zeros((k_objects, n)), np.zeros((n, 3)), np.zeros((n, 3)), np.zeros((n, 3)))
     marching = [i for i, p in enumerate(placed) if not p.grid.is_empty]
     active = [placed[i] for i in marching]
-
-    o3, d3, z_per_t = _camera_rays(cam)  # (3, N), (3, N), (N,)
-    origins, directions = o3.T, d3.T  # (N, 3) views
-    light = unit(scene.light.direction)
-    backdrop = scene.backdrop
-    t_floor = floor_distance(origins, directions) if backdrop.floor else np.full(n, np.inf)
-
-    alpha = np.zeros(n)
-    t_surface = np.full(n, np.inf)
-    delta = np.full(n, np.inf)
-    shares = np.zeros((k_objects, n))
-    alone = np.zeros((k_objects, n))
-    albedo_sum = np.zeros((n, 3))
-    direct_sum = np.zeros((n, 3))
-    normal_sum = np.zeros((n, 3))
     intervals = []
     met = np.zeros(n, bool)
     for i, p in zip(marching, active, strict=True):
-        ids = screen_rays(cam, scene.objects[i].pose)
+        ids = screen_rays(scene.camera, scene.objects[i].pose)
         t0, t1 = np.full(n, np.inf), np.full(n, -np.inf)
         t0[ids], t1[ids] = box_interval(p, o3.take(ids, axis=1), d3.take(ids, axis=1))
         intervals.append((t0, t1))
@@ -134,48 +122,73 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
                                 options.step, sub)
         merged = composite(samples, dl, len(ids))
         a_sum, d_sum, n_sum = surface_terms(merged, samples, active, light, len(ids))
-        alpha[ids], t_surface[ids], delta[ids] = merged.alpha, merged.t_surface, dl
-        shares[marching, ids[:, None]] = merged.shares.T
-        alone[marching, ids[:, None]] = merged.alone.T
-        albedo_sum[ids], direct_sum[ids], normal_sum[ids] = a_sum, d_sum, n_sum
+        out.alpha[ids], out.t_surface[ids], out.delta[ids] = merged.alpha, merged.t_surface, dl
+        out.shares[marching, ids[:, None]] = merged.shares.T
+        out.alone[marching, ids[:, None]] = merged.alone.T
+        out.albedo_sum[ids], out.direct_sum[ids], out.normal_sum[ids] = a_sum, d_sum, n_sum
+    return out
 
-    on_object = np.isfinite(t_surface)
-    length = np.linalg.norm(normal_sum, axis=1, keepdims=True)
-    normals = np.where(length > 0.0, normal_sum / np.maximum(length, 1e-30), 0.0)
-    on_floor = ~on_object & np.isfinite(t_floor)
+
+def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOptions(),
+                 cache: GridCache | None = None) -> RenderOutput:
+    """Render ``scene`` with the fields of ``model`` (anything with ``bake``; see DEVELOPERS.md).
+
+    ``cache`` defaults to the process-wide one, bounded by ``options``.
+    """
+    torch.set_num_threads(options.threads)
+    torch.set_flush_denormal(True)
+    cam, lit, backdrop = scene.camera, scene.light, scene.backdrop
+    h, w = cam.height, cam.width
+    n, k_objects = h * w, len(scene.objects)
+    if cache is None:
+        cache = default_cache(options.memory_cache_mb, options.disk_cache, options.disk_cache_mb)
+    grids = cache.get_many(model, [(obj.shape.array, obj.appearance.array,
+                                    auto_resolution(options, cube_pixels(cam, obj.pose)))
+                                   for obj in scene.objects])
+    placed = [Placed.make(g, obj.pose) for g, obj in zip(grids, scene.objects, strict=True)]
+
+    o3, d3, z_per_t = _camera_rays(cam)  # (3, N), (3, N), (N,)
+    origins, directions = o3.T, d3.T  # (N, 3) views
+    light = unit(lit.direction)
+    t_floor = floor_distance(origins, directions) if backdrop.floor else np.full(n, np.inf)
     floor_normal = np.where(origins[:, 2:3] >= 0.0, 1.0, -1.0) * np.array([0.0, 0.0, 1.0])  # (N, 3)
+    p = _primary(scene, placed, o3, d3, t_floor, light, options)
+    log.debug("scene %d: %d objects, %d of %d rays met a cube, cache %s", scene.index, k_objects,
+              int(np.isfinite(p.delta).sum()), n, cache.stats)
+
+    on_object = np.isfinite(p.t_surface)
+    on_floor = ~on_object & np.isfinite(t_floor)
+    length = np.linalg.norm(p.normal_sum, axis=1, keepdims=True)
+    normals = np.where(length > 0.0, p.normal_sum / np.maximum(length, 1e-30), 0.0)
 
     # light reaching the first surfaces: 1, or the transmittance of the shadow ray
-    vis_object = np.ones(n)
-    vis_floor = np.ones(n)
-    if scene.light.shadows and active:
-        i = np.flatnonzero(on_object)
-        pts = (origins[i] + t_surface[i, None] * directions[i]
-               + SHADOW_BIAS_STEPS * delta[i, None] * normals[i])
-        vis_object[i] = _shadow(active, pts, light, options)
-        i = np.flatnonzero(np.isfinite(t_floor) & (alpha < 1.0))  # floor pixels that show
-        vis_floor[i] = _shadow(active, origins[i] + t_floor[i, None] * directions[i]
-                               + FLOOR_BIAS * floor_normal[i], light, options)
+    vis_object, vis_floor = np.ones(n), np.ones(n)
+    occluders = [q for q in placed if not q.grid.is_empty]
+    if lit.shadows and occluders:
+        i = np.flatnonzero(on_object & (p.direct_sum.sum(axis=1) > 0.0))  # lit side only
+        start = origins[i] + p.t_surface[i, None] * directions[i] + SHADOW_BIAS_STEPS * p.delta[i, None] * normals[i]
+        vis_object[i] = _shadow(occluders, start, light, options)
+        i = np.flatnonzero(np.isfinite(t_floor) & (p.alpha < 1.0) & (floor_normal @ light > 0.0))
+        start = origins[i] + t_floor[i, None] * directions[i] + FLOOR_BIAS * floor_normal[i]
+        vis_floor[i] = _shadow(occluders, start, light, options)
 
-    lit = scene.light
-    rgb_objects = lit.ambient * albedo_sum + (lit.strength * vis_object)[:, None] * direct_sum
+    rgb_objects = lit.ambient * p.albedo_sum + (lit.strength * vis_object)[:, None] * p.direct_sum
     behind = backdrop_image(backdrop, h, w).reshape(n, 3)
     if backdrop.floor:
         floor_albedo = srgb_to_linear(np.asarray(backdrop.floor_srgb))
         cosine = np.maximum(floor_normal @ light, 0.0)
         floor_rgb = floor_albedo[None, :] * (lit.ambient + lit.strength * cosine * vis_floor)[:, None]
-        hit = np.isfinite(t_floor)
-        behind = np.where(hit[:, None], floor_rgb, behind)
-    rgb = rgb_objects + (1.0 - alpha)[:, None] * behind  # objects over what lies behind them
+        behind = np.where(np.isfinite(t_floor)[:, None], floor_rgb, behind)
+    rgb = rgb_objects + (1.0 - p.alpha)[:, None] * behind  # objects over what lies behind them
 
-    depth = np.where(on_object, t_surface, np.where(on_floor, t_floor, np.inf)) * z_per_t
+    depth = np.where(on_object, p.t_surface, np.where(on_floor, t_floor, np.inf)) * z_per_t
     normals = np.where(on_object[:, None], normals, np.where(on_floor[:, None], floor_normal, 0.0))
-    amodal = (alone >= MASK_ALPHA).reshape(k_objects, h, w) if options.amodal else None
+    amodal = (p.alone >= MASK_ALPHA).reshape(k_objects, h, w) if options.amodal else None
     return RenderOutput(
         rgb=rgb.reshape(h, w, 3).astype(np.float32),
         depth=depth.reshape(h, w).astype(np.float32),
-        alpha=alpha.reshape(h, w).astype(np.float32),
-        weights=shares.reshape(k_objects, h, w).astype(np.float32),
+        alpha=p.alpha.reshape(h, w).astype(np.float32),
+        weights=p.shares.reshape(k_objects, h, w).astype(np.float32),
         amodal=amodal,
         normals=normals.reshape(h, w, 3).astype(np.float32),
         object_ids=tuple(obj.id for obj in scene.objects),
