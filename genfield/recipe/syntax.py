@@ -170,11 +170,16 @@ def _bad_token(err: UnexpectedInput, pos: Pos, lines: list[str], file: str) -> R
         return _error(f"unexpected {_got(token)} after a number", pos,
                       hint=f"units are {', '.join(UNITS)}, written right after the number; "
                       "separate values with ','")
+    if label == "no_value":
+        before = _LAST_WORD.search(pos.text[: pos.column - 1])
+        if before:
+            return _error(f"{before.group(1)} needs a value", pos)
     if label in _MESSAGES and label != "after_number":
         return _error(f"{_MESSAGES[label]}; got {_got(token)}", pos)
     return _error(f"expected {expected_words(expected)}; got {_got(token)}", pos)
 
 
+_LAST_WORD = re.compile(r"([A-Za-z_][A-Za-z0-9_.]*)\s*=?\s*$")
 _LAST_NUMBER = re.compile(r"(-?[0-9]+(\.[0-9]+)?([eE][+-]?[0-9]+)?)\s*$")
 _BAD_NUMBER = re.compile(r"-?[0-9]+(\.[0-9]+)?([eE][+-]?[0-9]+)?([A-Za-z_][A-Za-z0-9_]*)")
 _BAD_HASH = re.compile(r"#[0-9A-Za-z_]*")
