@@ -34,18 +34,17 @@ def _cube_interval(o: np.ndarray, d: np.ndarray) -> tuple[np.ndarray, np.ndarray
     return t0, np.maximum(lo, hi).min(axis=1)
 
 
-def render_per_sample(model: Any, scene: Scene, *, samples: int = 48) -> RenderOutput:
-    """Render ``scene`` with ``samples`` model queries per ray and box (module doc)."""
-    cam = scene.camera
-    h, w = cam.height, cam.width
-    n = h * w
-    rays = pixel_rays(cam)
-    k_objects = len(scene.objects)
+CHUNK_RAYS = 2048  # rays rendered together: bounds the samples held at once
+
+
+def _chunk(model: Any, scene: Scene, origins: np.ndarray, directions: np.ndarray, samples: int):
+    """alpha (n,), ray distance of T = 1/2 (n,), sum w a (n, 3), shares (K, n), alone (K, n)."""
+    n, k_objects = len(origins), len(scene.objects)
     ray_parts, t_parts, delta_parts, sigma_parts, albedo_parts, owner_parts = [], [], [], [], [], []
     for k, obj in enumerate(scene.objects):
         m = obj.pose.world_to_object()
-        o = rays.origins @ m[:3, :3].T + m[:3, 3]  # (N, 3) object frame
-        d = rays.directions @ m[:3, :3].T
+        o = origins @ m[:3, :3].T + m[:3, 3]  # (n, 3) object frame
+        d = directions @ m[:3, :3].T
         t0, t1 = _cube_interval(o, d)
         ids = np.flatnonzero(t1 > t0)
         step = (t1[ids] - t0[ids]) / samples  # (m,) world metres
@@ -60,33 +59,46 @@ def render_per_sample(model: Any, scene: Scene, *, samples: int = 48) -> RenderO
         sigma_parts.append(SIGMA_MAX * np.asarray(occupancy, np.float64) / obj.pose.scale)
         albedo_parts.append(np.asarray(albedo, np.float64))
         owner_parts.append(np.full(len(ids) * samples, k))
-    alpha = np.zeros(n)
-    depth_t = np.full(n, np.inf)
-    rgb_sum = np.zeros((n, 3))
-    shares = np.zeros((k_objects, n))
-    alone = np.zeros((k_objects, n))
-    if k_objects and sum(len(r) for r in ray_parts):
-        ray, t = np.concatenate(ray_parts), np.concatenate(t_parts)
-        delta, sigma = np.concatenate(delta_parts), np.concatenate(sigma_parts)
-        albedo, owner = np.concatenate(albedo_parts), np.concatenate(owner_parts)
-        order = np.lexsort((t, ray))  # by ray, then distance: the merge of all objects
-        ray, t, delta, sigma, albedo, owner = (a[order] for a in (ray, t, delta, sigma, albedo, owner))
-        tau = sigma * delta
-        total = np.cumsum(tau)
-        new = np.r_[True, ray[1:] != ray[:-1]]
-        lead = np.flatnonzero(new)
-        before = total - tau - (total[lead] - tau[lead])[np.cumsum(new) - 1]
-        weight = np.exp(-before) * -np.expm1(-tau)  # T_i alpha_i
-        alpha = np.bincount(ray, weight, minlength=n)
-        for c in range(3):
-            rgb_sum[:, c] = np.bincount(ray, weight * albedo[:, c], minlength=n)
-        cross = (before < LN2) & (before + tau >= LN2)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            depth_t[ray[cross]] = (t[cross] - 0.5 * delta[cross]) + (LN2 - before[cross]) / sigma[cross]
-        for k in range(k_objects):
-            mine = owner == k
-            shares[k] = np.bincount(ray[mine], weight[mine], minlength=n)
-            alone[k] = -np.expm1(-np.bincount(ray[mine], tau[mine], minlength=n))
+    alpha, depth_t, rgb_sum = np.zeros(n), np.full(n, np.inf), np.zeros((n, 3))
+    shares, alone = np.zeros((k_objects, n)), np.zeros((k_objects, n))
+    if not sum(len(r) for r in ray_parts):
+        return alpha, depth_t, rgb_sum, shares, alone
+    ray, t = np.concatenate(ray_parts), np.concatenate(t_parts)
+    delta, sigma = np.concatenate(delta_parts), np.concatenate(sigma_parts)
+    albedo, owner = np.concatenate(albedo_parts), np.concatenate(owner_parts)
+    order = np.lexsort((t, ray))  # by ray, then distance: the merge of all objects
+    ray, t, delta, sigma, albedo, owner = (a[order] for a in (ray, t, delta, sigma, albedo, owner))
+    tau = sigma * delta
+    total = np.cumsum(tau)
+    new = np.r_[True, ray[1:] != ray[:-1]]
+    lead = np.flatnonzero(new)
+    before = total - tau - (total[lead] - tau[lead])[np.cumsum(new) - 1]
+    weight = np.exp(-before) * -np.expm1(-tau)  # T_i alpha_i
+    alpha = np.bincount(ray, weight, minlength=n)
+    for c in range(3):
+        rgb_sum[:, c] = np.bincount(ray, weight * albedo[:, c], minlength=n)
+    cross = (before < LN2) & (before + tau >= LN2)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        depth_t[ray[cross]] = (t[cross] - 0.5 * delta[cross]) + (LN2 - before[cross]) / sigma[cross]
+    for k in range(k_objects):
+        mine = owner == k
+        shares[k] = np.bincount(ray[mine], weight[mine], minlength=n)
+        alone[k] = -np.expm1(-np.bincount(ray[mine], tau[mine], minlength=n))
+    return alpha, depth_t, rgb_sum, shares, alone
+
+
+def render_per_sample(model: Any, scene: Scene, *, samples: int = 48) -> RenderOutput:
+    """Render ``scene`` with ``samples`` model queries per ray and box (module doc)."""
+    cam = scene.camera
+    h, w = cam.height, cam.width
+    n, k_objects = h * w, len(scene.objects)
+    rays = pixel_rays(cam)
+    alpha, depth_t, rgb_sum = np.zeros(n), np.full(n, np.inf), np.zeros((n, 3))
+    shares, alone = np.zeros((k_objects, n)), np.zeros((k_objects, n))
+    for start in range(0, n, CHUNK_RAYS):
+        sl = slice(start, start + CHUNK_RAYS)
+        alpha[sl], depth_t[sl], rgb_sum[sl], shares[:, sl], alone[:, sl] = _chunk(
+            model, scene, rays.origins[sl], rays.directions[sl], samples)
     behind = backdrop_image(scene.backdrop, h, w).reshape(n, 3)
     rgb = rgb_sum + (1.0 - alpha)[:, None] * behind
     return RenderOutput(
