@@ -161,3 +161,9 @@ def test_screen_rectangle_holds_every_pixel_whose_ray_meets_the_cube(pose):
     chosen = screen_rays(CAMERA, pose)
     assert len(hits) and np.isin(hits, chosen).all()
     assert len(chosen) < 64 * 64  # and it does cull
+
+
+def test_a_zero_light_direction_is_bad_input():
+    with pytest.raises(UsageError) as err:
+        render(scene([obj(0, POSE_A, 1)], light=Light(direction=(0.0, 0.0, 0.0))))
+    assert err.value.where == "Scene.light.direction"

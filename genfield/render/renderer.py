@@ -26,7 +26,7 @@ from genfield.render.composite import composite
 from genfield.render.march import Placed, box_interval, march_all, transmittance
 from genfield.render.options import RenderOptions, auto_resolution
 from genfield.render.output import MASK_ALPHA, RenderOutput
-from genfield.render.shade import backdrop_image, floor_distance, surface_terms, unit
+from genfield.render.shade import backdrop_image, floor_distance, light_direction, surface_terms
 from genfield.scene import Camera, Pose, Scene
 
 log = logging.getLogger(__name__)
@@ -149,7 +149,7 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
 
     o3, d3, z_per_t = _camera_rays(cam)  # (3, N), (3, N), (N,)
     origins, directions = o3.T, d3.T  # (N, 3) views
-    light = unit(lit.direction)
+    light = light_direction(lit)
     t_floor = floor_distance(origins, directions) if backdrop.floor else np.full(n, np.inf)
     floor_normal = np.where(origins[:, 2:3] >= 0.0, 1.0, -1.0) * np.array([0.0, 0.0, 1.0])  # (N, 3)
     p = _primary(scene, placed, o3, d3, t_floor, light, options)

@@ -17,19 +17,21 @@ from genfield.colour import srgb_to_linear
 from genfield.render.composite import Merged
 from genfield.render.grids import sample
 from genfield.render.march import Placed, Samples
-from genfield.scene import Backdrop
+from genfield.errors import UsageError
+from genfield.scene import Backdrop, Light
 
 # Samples carrying less of the pixel than this are not shaded (their colour is not looked up):
 # at most ~a few such samples a ray, so the colour they would add is below 1e-3.
 SHADE_MIN_WEIGHT = 1e-4
 
 
-def unit(v) -> np.ndarray:
-    """v / |v| as float64 (3,)."""
-    a = np.asarray(v, dtype=np.float64)
+def light_direction(light: Light) -> np.ndarray:
+    """The unit vector (3,) towards the light; a UsageError for a zero or non-finite one."""
+    a = np.asarray(light.direction, dtype=np.float64)
     n = np.linalg.norm(a)
-    if n == 0.0:
-        raise ValueError("the light direction is the zero vector")
+    if not np.isfinite(n) or n == 0.0:
+        raise UsageError(f"the light direction must be a non-zero vector, got {tuple(light.direction)}",
+                         where="Scene.light.direction")
     return a / n
 
 
