@@ -14,10 +14,10 @@ from __future__ import annotations
 import numpy as np
 
 from genfield.colour import srgb_to_linear
+from genfield.errors import UsageError
 from genfield.render.composite import Merged
 from genfield.render.grids import sample
 from genfield.render.march import Placed, Samples
-from genfield.errors import UsageError
 from genfield.scene import Backdrop, Light
 
 # Samples carrying less of the pixel than this are not shaded (their colour is not looked up):
