@@ -97,7 +97,7 @@ def outline_masks(image: np.ndarray, instance_ids: np.ndarray) -> np.ndarray:
 
 
 def draw_boxes(image: np.ndarray, boxes: dict[int, Box], names: dict[int, str],
-               font_size: int = 10) -> np.ndarray:
+               font_size: int = 9) -> np.ndarray:
     """Draw each box in its instance colour with its class name on a tag at its top-left."""
     canvas = Image.fromarray(np.asarray(image, dtype=np.uint8))
     draw = ImageDraw.Draw(canvas)
