@@ -9,6 +9,7 @@ a GLB of one scene into --out; then prints where each file is and what to try ne
 from __future__ import annotations
 
 import argparse
+import os
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -40,8 +41,9 @@ def demo_recipe() -> Path:
     raise UsageError(f"the demo recipe {DEMO_RECIPE} is missing from this installation")
 
 
-def cached_model_path() -> Path:
-    """Where the demo keeps its model: the cache, keyed by preset, preset content and version."""
+def cached_model_path(config: str = PRESET) -> Path:
+    """Where a trained model is cached: keyed by the config's name, its content and the
+    genfield version (a changed preset or a new release trains afresh)."""
     import hashlib
     import json
 
@@ -49,36 +51,45 @@ def cached_model_path() -> Path:
     from genfield.field.config import load_config
     from genfield.paths import cache_dir
 
-    cfg, _ = load_config(PRESET)
+    cfg, _ = load_config(config)
     digest = hashlib.sha256(json.dumps(cfg.to_dict(), sort_keys=True).encode()).hexdigest()[:12]
-    return cache_dir("models") / f"{PRESET}-{__version__}-{digest}.gfm"
+    return cache_dir("models") / f"{Path(config).stem}-{__version__}-{digest}.gfm"
 
 
-def demo_model(given: str | None, retrain: bool) -> tuple[Path, str]:
-    """The model file to use and how it was come by."""
-    from genfield.errors import GenfieldError, UsageError
+def cached_model(config: str = PRESET, retrain: bool = False) -> tuple[Path, str]:
+    """The cached model of a training config (a preset name or a TOML file), trained first
+    if it is missing, unreadable or ``retrain``; and how it was come by."""
+    from genfield.errors import GenfieldError
     from genfield.field.config import load_config
     from genfield.field.model import load_model
     from genfield.field.pipeline import train
 
-    if given:
-        if not Path(given).is_file():
-            raise UsageError(f"model file {given!r} does not exist", where=given)
-        return Path(given), "given"
-    path = cached_model_path()
+    path = cached_model_path(config)
     if path.is_file() and not retrain:
         try:
             load_model(path)
             return path, "reused the cached model"
         except GenfieldError as err:  # a damaged cache entry is retrained, not fatal
             print(f"      the cached model is unusable ({err.one_line()}); training again")
-    cfg, base = load_config(PRESET)
-    tmp = path.with_name(f".{path.stem}.training.gfm")
+    cfg, base = load_config(config)
+    tmp = path.with_name(f".{path.stem}.{os.getpid()}.training.gfm")
     train(cfg, base, tmp, progress=True)
-    tmp.replace(path)
-    for extra in tmp.parent.glob(f"{tmp.stem}*"):  # the trainer's preview sheet and checkpoint
+    tmp.replace(path)  # a finished model appears whole, or not at all
+    for extra in tmp.parent.glob(f"{tmp.stem}.*"):  # the trainer's preview sheet and checkpoint
         extra.replace(path.with_name(path.stem + extra.name[len(tmp.stem):]))
-    return path, "trained the quick preset"
+    return path, f"trained {config}"
+
+
+def demo_model(given: str | None, retrain: bool) -> tuple[Path, str]:
+    """The model file the demo uses: the one given, else the cached quick preset."""
+    from genfield.errors import UsageError
+
+    if given:
+        if not Path(given).is_file():
+            raise UsageError(f"model file {given!r} does not exist", where=given)
+        return Path(given), "given"
+    path, how = cached_model(PRESET, retrain)
+    return path, how.replace(f"trained {PRESET}", f"trained the {PRESET} preset")
 
 
 @dataclass(frozen=True)

@@ -12,6 +12,8 @@ import argparse
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("model", help="model file")
     p.add_argument("--json", action="store_true", help="print JSON (with the code vectors)")
+    p.add_argument("--sheet", metavar="PNG",
+                   help="also render every named code in a labelled grid (genfield.sheets)")
 
 
 def summary(path: str) -> dict:
@@ -106,4 +108,10 @@ def run(args: argparse.Namespace) -> int:
 
     info = summary(args.model)
     print(json.dumps(info, indent=2) if args.json else _text(info))
+    if args.sheet:
+        import sys
+
+        from genfield.sheets.make import write_code_sheet
+
+        print(f"wrote {write_code_sheet(args.model, args.sheet)}", file=sys.stderr)
     return 0

@@ -153,3 +153,13 @@ def code_sheet(model: Any, *, size: int = 96, columns: int = 8, title: str = "")
     outputs = render_all(model, scenes, "codes")
     captions = list(model.codebook.names)
     return contact_sheet([o.srgb8 for o in outputs], captions, columns=columns, title=title)
+
+
+def write_code_sheet(model_path: str | Path, out: str | Path, *, size: int = 96,
+                     columns: int = 8) -> Path:
+    """``genfield inspect MODEL --sheet OUT``: the code sheet of a model file, as a PNG."""
+    from genfield.field.model import load_model
+
+    model = load_model(model_path)
+    title = f"{Path(model_path).name}: {len(model.codebook.names)} named codes"
+    return code_sheet(model, size=size, columns=columns, title=title).save(out)
