@@ -32,7 +32,8 @@ def sigmoid(x):
 def model_file(tmp_path_factory):
     cfg = TrainConfig(sources=SourcesConfig(families={"cup": 1, "washer": 2}),
                       network=NetworkConfig(shape_dim=1, appearance_dim=3, octaves=0, width=6,
-                                            depth=1, feature_dim=1, colour_width=4))
+                                            depth=1, feature_dim=1, colour_width=4,
+                                            colour_depth=1))
     net = FieldNetwork(cfg.network)
     with torch.no_grad():
         for p in net.parameters():
@@ -43,7 +44,7 @@ def model_file(tmp_path_factory):
         first[:, 3] = -1.0  # relu(+-x_i - r)
         net.geometry_out.weight[0, :] = -K
         net.geometry_out.bias[0] = C
-        net.colour_in.weight[:3, 1:4] = torch.eye(3)  # relu(a), the feature unused
+        net.colour[0].weight[:3, 1:4] = torch.eye(3)  # relu(a), the feature unused
         net.colour_out.weight[:, :3] = torch.eye(3)
         net.colour_out.bias[:] = -2.0
     book = CodeBook(

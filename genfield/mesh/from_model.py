@@ -51,22 +51,32 @@ def variant_mesh(model: FieldModel, shape: np.ndarray, appearance: np.ndarray | 
 _BUILTIN = re.compile(r"builtin:(?P<family>[\w-]+):seed=(?P<seed>\d+):index=(?P<index>\d+)")
 
 
+def builtin_asset(source: str):
+    """The built-in ``genfield.assets.Asset`` a model's source string names, or None.
+
+    Built-in sources read ``builtin:<family>:seed=<s>:index=<i>`` and rebuild exactly (cheap).
+    """
+    from genfield.assets import make_builtin
+
+    match = _BUILTIN.fullmatch(source)
+    if match is None:
+        return None
+    return make_builtin(match["family"], int(match["index"]), int(match["seed"]))
+
+
 def training_half_extent(codebook, sources: tuple[str, ...], shape: np.ndarray) -> tuple[str, float]:
     """(name, metres) of the training asset whose shape code is nearest to ``shape`` (Ds,).
 
     The model file records where each code came from, not its size, so a built-in asset is
-    rebuilt from its source (``builtin:<family>:seed=<s>:index=<i>``, cheap and exact); for a
-    code learned from a mesh file the size is not known and a UsageError asks for it.
+    rebuilt from its source; for a code learned from a mesh file the size is not known and a
+    UsageError asks for it.
     """
-    from genfield.assets import make_builtin
-
     row = int(np.argmin(np.linalg.norm(codebook.shape - np.asarray(shape)[None, :], axis=1)))
     name, source = codebook.names[row], sources[row]
-    match = _BUILTIN.fullmatch(source)
-    if match is None:
+    asset = builtin_asset(source)
+    if asset is None:
         raise UsageError(f"the model does not record the real size of {name!r} (from {source})",
                          hint="give it in metres: --real-size HALF_EXTENT")
-    asset = make_builtin(match["family"], int(match["index"]), int(match["seed"]))
     return name, asset.metric_half_extent
 
 
