@@ -1,13 +1,14 @@
 """Regenerate the gallery from recipes/: small PNGs here, and the README section showing them.
 
 For every recipe in recipes/ (not the included files in its sub-folders) this renders a
-preview of its first images with their labels drawn on, and one sheet per sweep block, all
-with one model file (the demo's cached quick model unless --model is given, trained on first
-use). Sheets are stored with a 256-colour palette to keep the committed files small. Then it
-rewrites the part of README.md between the gallery markers: each picture with the recipe
-lines that made it.
+preview of its first images with their labels drawn on, and one sheet per sweep block. The
+models are the demo's quick preset (workshop families) and the same settings over the kitchen
+families (gallery/kitchen-quick.toml), each trained on first use and cached like the demo's;
+a recipe is rendered with the first model that holds every code name it uses. Sheets are
+stored with a 256-colour palette to keep the committed files small. Then it rewrites the
+part of README.md between the gallery markers: each picture with the recipe lines behind it.
 
-    python gallery/make_gallery.py [--model MODEL] [--recipes DIR] [--no-readme]
+    python gallery/make_gallery.py [--model MODEL ...] [--recipes DIR] [--no-readme]
 
 Run by ``make gallery``.
 """
@@ -31,6 +32,7 @@ END = "<!-- gallery:end -->"
 PLACEHOLDER = "<!-- gallery: pictures made by `make gallery` from recipes/ go here -->"
 PREVIEW_COUNT = 4  # images per preview
 MAX_FRAMES = 8  # frames per sweep sheet; longer sweeps keep every k-th value
+CONFIGS = ("quick", str(GALLERY / "kitchen-quick.toml"))  # training configs of the models
 
 log = logging.getLogger("make_gallery")
 
@@ -84,32 +86,50 @@ def thin(sweep, most: int):
                    column_labels=tuple(sweep.column_labels[k] for k in keep))
 
 
-def pictures_of(recipe: Path, model: Path) -> list[Picture]:
-    """Render one recipe's preview and sweep sheets into gallery/."""
-    from genfield.sheets.recipes import load, recipe_preview, recipe_sweep
+def pick_model(recipe: Path, models: list[tuple[Path, object]]):
+    """A Loaded recipe with the first model whose code table has every name it uses."""
+    from genfield.errors import RecipeError
+    from genfield.recipe import check_codes, load_recipe
+    from genfield.sheets.recipes import Loaded
 
-    loaded = load(recipe, model)
+    misses = []
+    for path, model in models:
+        spec = load_recipe(recipe, model=path)
+        try:
+            check_codes(spec, model.codebook)
+        except RecipeError as err:
+            misses.append(err.one_line())
+            continue
+        return Loaded(spec, model, path)
+    raise SystemExit(f"{recipe.name}: no model holds its codes: {'; '.join(misses)}")
+
+
+def pictures_of(loaded) -> list[Picture]:
+    """Render one recipe's preview and sweep sheets into gallery/."""
+    from genfield.sheets.recipes import recipe_preview, recipe_sweep
+
+    recipe = loaded.recipe.path.resolve()
     stem = recipe.stem
-    rel = recipe.relative_to(ROOT)
+    rel = recipe.relative_to(ROOT) if recipe.is_relative_to(ROOT) else recipe
     out = [Picture(
         save_small(recipe_preview(loaded, PREVIEW_COUNT, columns=PREVIEW_COUNT).image,
                    GALLERY / f"{stem}.png"),
         f"`{rel}`: its first {PREVIEW_COUNT} images, masks tinted, boxes named, depth beside",
         recipe, block_lines(recipe, ("object",)))]
-    if loaded.recipe.sweeps:
-        for sweep in recipe_sweep(loaded, []):
-            name = sweep.extra["sweep"]
-            sheet = thin(sweep, MAX_FRAMES).sheet()
-            out.append(Picture(save_small(sheet.image, GALLERY / f"{stem}-{name}.png"),
-                               f"`{rel}`: sweep `{name}`", recipe,
-                               block_lines(recipe, ("sweep",), name)))
+    for sweep in recipe_sweep(loaded, []) if loaded.recipe.sweeps else []:
+        name = sweep.extra["sweep"]
+        sheet = thin(sweep, MAX_FRAMES).sheet()
+        out.append(Picture(save_small(sheet.image, GALLERY / f"{stem}-{name}.png"),
+                           f"`{rel}`: sweep `{name}`", recipe,
+                           block_lines(recipe, ("sweep",), name)))
     return out
 
 
-def readme_section(pictures: list[Picture], model: Path) -> str:
+def readme_section(pictures: list[Picture], models: list[Path]) -> str:
+    names = ", ".join(f"`{m.name}`" for m in models)
     lines = [START, "## Gallery", "",
-             "Made by `make gallery` from the recipes in `recipes/`, with the quick model "
-             f"(`{model.name}`); each picture is followed by the recipe lines that made it.", ""]
+             "Made by `make gallery` from the recipes in `recipes/` with the quick-preset models "
+             f"({names}); under each picture, the recipe lines that made it.", ""]
     for p in pictures:
         lines += [f"![{p.caption}]({p.path.relative_to(ROOT).as_posix()})", "", p.caption, "",
                   "<details><summary>recipe lines</summary>", "", "```", p.lines, "```", "",
@@ -118,41 +138,49 @@ def readme_section(pictures: list[Picture], model: Path) -> str:
     return "\n".join(lines)
 
 
-def write_readme(section: str) -> None:
-    text = README.read_text(encoding="utf-8")
+def write_readme(section: str, readme: Path = README) -> None:
+    """Put the section between the markers (or in place of the first placeholder)."""
+    text = readme.read_text(encoding="utf-8")
     if START in text and END in text:
         head, rest = text.split(START, 1)
         text = head + section + rest.split(END, 1)[1]
     elif PLACEHOLDER in text:
         text = text.replace(PLACEHOLDER, section)
     else:
-        raise SystemExit(f"README.md has neither the gallery markers nor {PLACEHOLDER!r}")
-    tmp = README.with_name(".README.md.tmp")
+        raise SystemExit(f"{readme.name} has neither the gallery markers nor {PLACEHOLDER!r}")
+    tmp = readme.with_name(f".{readme.name}.tmp")
     tmp.write_text(text, encoding="utf-8")
-    tmp.replace(README)
+    tmp.replace(readme)
 
 
 def main(argv: list[str] | None = None) -> int:
     p = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    p.add_argument("--model", type=Path, help="model file (default: the demo's cached quick model)")
+    p.add_argument("--model", type=Path, action="append",
+                   help="model file (repeatable; default: the cached quick-preset models)")
     p.add_argument("--recipes", type=Path, default=ROOT / "recipes", help="folder of recipes")
     p.add_argument("--no-readme", action="store_true", help="leave README.md as it is")
     args = p.parse_args(argv)
     logging.basicConfig(level=logging.INFO, format="make_gallery: %(message)s", stream=sys.stderr)
-    from genfield.commands.demo import demo_model
+    from genfield.commands.demo import cached_model
+    from genfield.field.model import load_model
 
-    model, how = demo_model(str(args.model) if args.model else None, retrain=False)
-    log.info("%s: %s", how, model)
+    paths = list(args.model or [])
+    for config in CONFIGS if not paths else ():
+        path, how = cached_model(config)
+        log.info("%s: %s", how, path)
+        paths.append(path)
+    models = [(path, load_model(path)) for path in paths]
     pictures: list[Picture] = []
     for recipe in sorted(args.recipes.glob("*.gfr")):
-        log.info("rendering %s", recipe.name)
-        pictures += pictures_of(recipe, model)
+        loaded = pick_model(recipe, models)
+        log.info("rendering %s with %s", recipe.name, loaded.model_path.name)
+        pictures += pictures_of(loaded)
     total = sum(pic.path.stat().st_size for pic in pictures)
     for pic in pictures:
         log.info("%-40s %6.1f KB", pic.path.name, pic.path.stat().st_size / 1024)
     log.info("%d pictures, %.0f KB in all", len(pictures), total / 1024)
     if not args.no_readme:
-        write_readme(readme_section(pictures, model))
+        write_readme(readme_section(pictures, paths))
     return 0
 
 
