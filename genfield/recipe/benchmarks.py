@@ -8,6 +8,7 @@ floor of the reproducibility rule), so the ratio says what the rest of a draw co
 
 from __future__ import annotations
 
+import statistics
 import subprocess
 import sys
 from pathlib import Path
@@ -19,6 +20,20 @@ RECIPES = Path(__file__).resolve().parent.parent.parent / "recipes"
 
 def _run(args: list[str]) -> None:
     subprocess.run([sys.executable, *args], check=True, capture_output=True)
+
+
+def _cpu_seconds(args: list[str], repeats: int) -> float:
+    """Median CPU time (user + system) of a child process: steadier than wall time when
+    other work shares the machine."""
+    import resource
+
+    times = []
+    for _ in range(repeats):
+        before = resource.getrusage(resource.RUSAGE_CHILDREN)
+        _run(args)
+        after = resource.getrusage(resource.RUSAGE_CHILDREN)
+        times.append(after.ru_utime - before.ru_utime + after.ru_stime - before.ru_stime)
+    return statistics.median(times)
 
 
 @case("recipe_check", "'genfield check' of each example recipe, and drawing scenes from it")
@@ -35,6 +50,8 @@ def _recipe_check(quick: bool) -> list[Figure]:
     numpy = median_seconds(lambda: _run(["-c", "import numpy"]), repeats)
     checks = [median_seconds(lambda p=p: _run(["-m", "genfield", "check", str(p)]), repeats)
               for p in examples]
+    cpu = max(_cpu_seconds(["-m", "genfield", "check", str(p)], repeats) for p in examples)
+    numpy_cpu = _cpu_seconds(["-c", "import numpy"], repeats)
     build = median_seconds(lark_parser.__wrapped__, repeats)
     load = median_seconds(lambda: [load_recipe(p) for p in examples], repeats) / len(examples)
     recipe = load_recipe(RECIPES / "workshop-tray.gfr")
@@ -50,6 +67,8 @@ def _recipe_check(quick: bool) -> list[Figure]:
         Figure("bare_python_seconds", bare, "s", "baseline: python -c pass"),
         Figure("import_numpy_seconds", numpy, "s", "baseline: python -c 'import numpy'"),
         Figure("check_over_numpy_start", max(checks) / numpy, "x", "same run"),
+        Figure("check_cpu_seconds_worst", cpu, "s", "user + system time of the slowest"),
+        Figure("import_numpy_cpu_seconds", numpy_cpu, "s", "baseline, user + system"),
         Figure("parser_build_seconds", build, "s", "LALR tables from grammar/recipe.lark"),
         Figure("load_recipe_ms", 1e3 * load, "ms", "parse + include + check, per example"),
         Figure("draw_scene_ms", 1e3 * draw, "ms", f"workshop-tray, {len(scene.objects)} objects "
