@@ -35,6 +35,16 @@ _PUBLIC: dict[str, str] = {
     "trace_reference": "genfield.render.reference",
     "load_model": "genfield.field.model",
     "read_codebook": "genfield.field.codebook",
+    "grid_sheet": "genfield.sheets.layout",
+    "contact_sheet": "genfield.sheets.layout",
+    "label_overlay": "genfield.sheets.overlay",
+    "depth_thumbnail": "genfield.sheets.overlay",
+    "latent_plan": "genfield.sheets.studio",
+    "latent_sweep": "genfield.sheets.make",
+    "code_sheet": "genfield.sheets.make",
+    "load_recipe_and_model": "genfield.sheets.recipes",
+    "recipe_sweep": "genfield.sheets.recipes",
+    "recipe_preview": "genfield.sheets.recipes",
 }
 
 __all__ = ["__version__", *_PUBLIC]

@@ -190,7 +190,7 @@ def next_steps(recipe: Path, model: Path, out: Path, book) -> list[str]:
 
 def run(args: argparse.Namespace) -> int:
     from genfield.errors import UsageError
-    from genfield.sheets.recipes import load, recipe_preview
+    from genfield.sheets.recipes import load_recipe_and_model, recipe_preview
 
     if args.count < 1:
         raise UsageError(f"--count must be >= 1, got {args.count}")
@@ -207,7 +207,7 @@ def run(args: argparse.Namespace) -> int:
     print(f"      {how}: {model}", flush=True)
     recipe = demo_recipe()
     step(2, f"check the demo recipe {recipe}")
-    loaded = load(recipe, model)
+    loaded = load_recipe_and_model(recipe, model)
     print(f"      {check_summary(loaded)}", flush=True)
     step(3, f"render {args.count} labelled images")
     dataset = render_dataset(recipe, model, out / "dataset", args.count, args.force)

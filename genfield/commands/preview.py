@@ -24,13 +24,13 @@ def run(args: argparse.Namespace) -> int:
     from pathlib import Path
 
     from genfield.errors import UsageError
-    from genfield.sheets.recipes import load, recipe_preview
+    from genfield.sheets.recipes import load_recipe_and_model, recipe_preview
 
     if not Path(args.recipe).is_file():
         raise UsageError(f"recipe {args.recipe!r} does not exist", where=args.recipe)
     if args.columns < 1:
         raise UsageError(f"--columns must be >= 1, got {args.columns}")
-    sheet = recipe_preview(load(args.recipe, args.model), args.count, seed=args.seed,
+    sheet = recipe_preview(load_recipe_and_model(args.recipe, args.model), args.count, seed=args.seed,
                            style="outline" if args.outline else "tint", columns=args.columns)
     path = sheet.save(args.out)
     print(f"wrote {path} ({sheet.image.shape[1]}x{sheet.image.shape[0]}, {len(sheet.tiles)} images)")

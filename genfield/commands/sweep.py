@@ -65,7 +65,7 @@ def _model_sweep(args: argparse.Namespace):
 
 def _recipe_sweep(args: argparse.Namespace):
     from genfield.errors import UsageError
-    from genfield.sheets.recipes import load, recipe_sweep
+    from genfield.sheets.recipes import load_recipe_and_model, recipe_sweep
     from genfield.sheets.vary import parse_vary
 
     if args.steps != 7:
@@ -78,7 +78,7 @@ def _recipe_sweep(args: argparse.Namespace):
     if args.index < 0:
         raise UsageError(f"--index must be >= 0, got {args.index}")
     varies = [parse_vary(text) for text in args.vary]
-    loaded = load(_check_exists(args.source, "recipe"), args.model)
+    loaded = load_recipe_and_model(_check_exists(args.source, "recipe"), args.model)
     return recipe_sweep(loaded, varies, zipped=args.zip, seed=args.seed, index=args.index)
 
 

@@ -29,7 +29,7 @@ class Loaded:
     model_path: Path
 
 
-def load(recipe_path: str | Path, model: str | Path | None = None) -> Loaded:
+def load_recipe_and_model(recipe_path: str | Path, model: str | Path | None = None) -> Loaded:
     """Check a recipe (against the model's code names) and load its model.
 
     ``model`` overrides the model file the recipe names.
