@@ -21,7 +21,7 @@ from dataclasses import asdict, dataclass
 # Modules whose import registers cases. Add a package's benchmarks module here.
 CASE_MODULES: tuple[str, ...] = ("genfield.bench", "genfield.mesh.benchmarks", "genfield.assets.benchmarks",
                                  "genfield.dataset.benchmarks", "genfield.recipe.benchmarks",
-                                 "genfield.render.benchmarks")
+                                 "genfield.render.benchmarks", "genfield.field.benchmarks")
 
 
 @dataclass(frozen=True)

@@ -45,7 +45,7 @@ class ToyAsset:
             return _sphere(p, self.size)
         if self.kind == "box":
             return _box(p, np.array([self.size, self.size * 0.8, self.size * 0.6]))
-        return _torus(p, self.size, self.size * 0.35)
+        return _torus(p, self.size, self.size * 0.5)
 
     def occupancy(self, points: np.ndarray) -> np.ndarray:
         return (self.sdf(points) <= 0.0).astype(np.float32)

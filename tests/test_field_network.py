@@ -49,7 +49,8 @@ def test_split_first_layer_equals_the_concatenated_input():
         h = torch.relu(layer(h))
     out = net.geometry_out(h)
     assert torch.allclose(logit, out[..., 0], atol=1e-6)
-    assert torch.allclose(feature, out[..., 1:], atol=1e-6)
+    assert torch.allclose(feature[..., :4], out[..., 1:], atol=1e-6)
+    assert torch.equal(feature[..., 4:], net.encoding(x))  # the skip of gamma(x)
 
 
 def test_appearance_changes_leave_occupancy_bit_identical(trained):

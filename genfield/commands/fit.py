@@ -16,6 +16,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--name", required=True, help="name to store the new code under")
     p.add_argument("--out", required=True, help="model file to write (may equal MODEL)")
     p.add_argument("--steps", type=int, default=300, help="optimiser steps (default 300)")
+    p.add_argument("--samples", type=int, default=100_000,
+                   help="ground-truth samples of the mesh (default 100000)")
     p.add_argument("--seed", type=int, default=0, help="seed of the samples and batches")
     p.add_argument("--threads", type=int, metavar="N", help="torch threads (default: the model's)")
     p.add_argument("--up", choices=["y", "z"], help="the mesh's up axis (default: by format)")
@@ -33,6 +35,8 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"--name may hold letters, digits and _ . - only, got {args.name!r}")
     if args.steps < 1 or args.seed < 0 or (args.threads is not None and args.threads < 1):
         raise UsageError("--steps and --threads must be >= 1, --seed >= 0")
+    if args.samples < 4096:
+        raise UsageError(f"--samples must be >= 4096, got {args.samples}")
     if not args.out.endswith(".safetensors"):
         raise UsageError(f"--out must end in .safetensors, got {args.out!r}")
     mesh = Path(args.mesh)
@@ -52,7 +56,7 @@ def run(args: argparse.Namespace) -> int:
     torch.set_num_threads(args.threads or model.config.resolved_threads())
     (asset,) = load_mesh_assets(mesh, up=args.up)
     start = time.perf_counter()
-    fit = fit_code(model, asset, FitSettings(steps=args.steps, seed=args.seed),
+    fit = fit_code(model, asset, FitSettings(steps=args.steps, samples=args.samples, seed=args.seed),
                    progress=not args.quiet)
     seconds = time.perf_counter() - start
     with_code(model, args.name, asset.family, asset.source, fit).save(args.out)

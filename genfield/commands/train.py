@@ -45,11 +45,13 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError(f"--resume: no checkpoint at {args.resume!r}")
 
     from genfield.field.config import load_config
-    from genfield.field.pipeline import train
 
-    cfg, base = load_config(args.config)
+    cfg, base = load_config(args.config)  # before torch is imported: a bad config fails fast
     if args.threads is not None:
         cfg = cfg.with_threads(args.threads)
+
+    from genfield.field.pipeline import train
+
     model = train(cfg, base, out, resume=resume, progress=not args.quiet)
     fit = model.metrics["fit"]
     print(f"wrote {out}: {len(model.codebook.names)} codes, {model.metrics['steps']} steps, "

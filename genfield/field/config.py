@@ -55,7 +55,8 @@ class NetworkConfig:
     width: int = _num(128, 4, 1024)  # hidden units of each geometry layer
     depth: int = _num(4, 1, 16)  # hidden layers of the geometry trunk
     feature_dim: int = _num(16, 1, 256)  # geometry feature handed to the colour head
-    colour_width: int = _num(64, 4, 1024)  # hidden units of the colour head
+    colour_width: int = _num(64, 4, 1024)  # hidden units of each colour layer
+    colour_depth: int = _num(2, 1, 16)  # hidden layers of the colour head
 
 
 @dataclass(frozen=True)

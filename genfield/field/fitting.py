@@ -74,8 +74,8 @@ def fit_code(model: Model, asset, settings: FitSettings = FitSettings(), *,
 
     from genfield.assets import sample_ground_truth
 
-    held = 2048
     truth = sample_ground_truth(asset, settings.samples, seed=settings.seed)
+    held = min(2048, len(truth.surface_points) // 4)  # surface samples kept out for scoring
     data = TrainingData([truth], held_out_surface=held)
     row = _start_row(model, truth)
     shape = torch.nn.Parameter(torch.from_numpy(model.codebook.shape[row].copy())[None])

@@ -74,10 +74,10 @@ class Model:
 
     # --- per-sample queries ----------------------------------------------------------------
     def _geometry(self, points: np.ndarray, shape: torch.Tensor) -> tuple[np.ndarray, np.ndarray]:
-        """Logits (N,) and features (N, F) at object-frame points (N, 3), chunked."""
+        """Logits (N,) and features (N, feature_width) at object-frame points (N, 3), chunked."""
         pts = np.ascontiguousarray(points, dtype=np.float32).reshape(-1, 3)
         logits = np.empty(len(pts), np.float32)
-        feats = np.empty((len(pts), self.config.network.feature_dim), np.float32)
+        feats = np.empty((len(pts), self.network.feature_width), np.float32)
         with torch.inference_mode():
             for s in range(0, len(pts), CHUNK):
                 x = torch.from_numpy(pts[s : s + CHUNK])[None]  # (1, n, 3)
@@ -91,7 +91,7 @@ class Model:
         with torch.inference_mode():
             for s in range(0, len(feats), CHUNK):
                 f = torch.from_numpy(feats[s : s + CHUNK])[None]  # (1, n, F)
-                out[s : s + CHUNK] = self.network.colour(f, appearance)[0].numpy()
+                out[s : s + CHUNK] = self.network.albedo(f, appearance)[0].numpy()
         return out
 
     def query_logits(self, points: np.ndarray, shape: np.ndarray) -> np.ndarray:
@@ -163,6 +163,21 @@ class Model:
             "prior": self.prior_info,
             "metrics": self.metrics,
         })
+
+    @property
+    def identity(self) -> str:
+        """SHA-256 of the network's config and weights: what a bake depends on besides the
+        codes (the renderer keys its disk cache of baked grids by it). Recomputed on every
+        call (about a millisecond), so it follows any change of the weights."""
+        import hashlib
+        import json
+
+        h = hashlib.sha256(json.dumps(self.config.to_dict()["network"], sort_keys=True).encode())
+        h.update(json.dumps(self.config.prior.clean_fraction).encode())
+        for name, value in sorted(self.network.state_dict().items()):
+            h.update(name.encode())
+            h.update(value.detach().numpy().tobytes())
+        return h.hexdigest()
 
     @property
     def parameter_count(self) -> int:

@@ -57,12 +57,28 @@ def _digest(tensors: dict[str, np.ndarray], meta_text: dict[str, str]) -> str:
     return h.hexdigest()
 
 
+def _canonical_bytes(arrays: dict[str, np.ndarray], text: dict[str, str]) -> bytes:
+    """safetensors bytes with the JSON header's keys sorted.
+
+    The library keeps the metadata in a hash map whose order changes from run to run; the
+    same model must give the same file, so the header is re-serialised canonically. The
+    format (safetensors' README): 8-byte little-endian header length, the JSON header padded
+    with spaces to a multiple of 8, then the tensor bytes at the header's offsets.
+    """
+    from safetensors.numpy import save
+
+    raw = save(arrays, metadata=text)
+    n = int.from_bytes(raw[:8], "little")
+    header = json.dumps(json.loads(raw[8 : 8 + n]), sort_keys=True, separators=(",", ":"))
+    encoded = header.encode("utf-8")
+    encoded += b" " * (-len(encoded) % 8)
+    return len(encoded).to_bytes(8, "little") + encoded + raw[8 + n :]
+
+
 def write_verified(path: str | os.PathLike, tensors: dict[str, np.ndarray],
                    text: dict[str, str], format_name: str) -> None:
     """Write arrays and string metadata with the format name and a checksum, atomically
     (temporary name beside the target, then rename). Shared by model files and checkpoints."""
-    from safetensors.numpy import save_file
-
     from genfield import __version__
 
     text = dict(text, format=format_name, format_version=str(FORMAT_VERSION),
@@ -74,7 +90,7 @@ def write_verified(path: str | os.PathLike, tensors: dict[str, np.ndarray],
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
     os.close(fd)
     try:
-        save_file(arrays, tmp, metadata=text)
+        Path(tmp).write_bytes(_canonical_bytes(arrays, text))
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)

@@ -47,7 +47,7 @@ def loss_terms(state: TrainState, batch: Batch, cfg: TrainConfig) -> dict[str, t
     x = torch.cat([batch.points, batch.surface_points], dim=1)  # (B, P + Q, 3): one trunk pass
     logit, feature = state.network.geometry(x, zs)  # (B, P + Q), (B, P + Q, F)
     occupancy = F.binary_cross_entropy_with_logits(logit[:, :p], batch.occupancy)
-    albedo = state.network.colour(feature[:, p:], za)  # (B, Q, 3)
+    albedo = state.network.albedo(feature[:, p:], za)  # (B, Q, 3)
     colour = (albedo - batch.surface_colour).abs().mean()
     code = zs.square().sum(1).mean() + za.square().sum(1).mean()
     return {"occupancy": occupancy, "colour": colour, "code": code}

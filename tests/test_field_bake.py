@@ -1,0 +1,93 @@
+"""Coarse-to-fine baking against dense evaluation; floater cleanup; the grid layout."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import torch
+from _field_toys import tiny_model
+
+from genfield.field.bake import (
+    bake_arrays,
+    clean_occupancy,
+    lattice_indices,
+    upsample,
+)
+from genfield.field.grid import SIGMA_MAX, grid_points
+
+
+@pytest.fixture(scope="module")
+def trained():
+    torch.set_num_threads(1)
+    return tiny_model(steps=120)
+
+
+def test_lattices_nest_and_keep_both_ends():
+    assert lattice_indices(65, 4).tolist() == list(range(0, 65, 4))
+    assert lattice_indices(64, 4).tolist()[-2:] == [60, 63]  # a short last cell
+    fine = set(lattice_indices(64, 1).tolist())
+    assert set(lattice_indices(64, 4).tolist()) <= fine
+
+
+def test_upsample_reproduces_linear_functions_exactly():
+    # trilinear interpolation is exact for functions linear in each coordinate
+    coarse, fine = lattice_indices(33, 4), lattice_indices(33, 1)
+    axis = np.linspace(-1, 1, 33)
+    f = lambda x, y, z: 2 * x - 3 * y + 0.5 * z + x * y * z  # noqa: E731 (multilinear)
+    xs = axis[coarse]
+    values = f(*np.meshgrid(xs, xs, xs, indexing="ij"))
+    up = upsample(values, coarse, fine)
+    assert np.allclose(up, f(*np.meshgrid(axis, axis, axis, indexing="ij")), atol=1e-12)
+
+
+def test_bake_matches_dense_evaluation(trained):
+    # dense: every grid point through the network (strides (1,)); fast: the default strides
+    model, _ = trained
+    for row in range(3):
+        s, a = model.codebook.shape[row], model.codebook.appearance[row]
+        fast, stats = model.bake_with_stats(s, a, 49, clean=False)
+        dense, dstats = model.bake_with_stats(s, a, 49, clean=False, steps=(1,))
+        assert dstats.fraction == 1.0 and stats.fraction < 0.8
+        inside_fast = fast.density > SIGMA_MAX / 2
+        inside_dense = dense.density > SIGMA_MAX / 2
+        assert np.array_equal(inside_fast, inside_dense)
+        # in the surface's transition (occupancy 5% to 95%) the albedo is the network's own
+        occ = dense.density / SIGMA_MAX
+        band = (occ > 0.05) & (occ < 0.95)
+        assert np.abs(fast.albedo[band] - dense.albedo[band]).max() < 1e-5
+        assert np.abs(fast.density - dense.density).max() < 0.03 * SIGMA_MAX
+
+
+def test_bake_points_follow_the_grid_layout(trained):
+    # the baked value at [i, j, k] is the field at grid_points(R)[i, j, k] (indexing="ij")
+    model, _ = trained
+    s, a = model.codebook.shape[2], model.codebook.appearance[2]
+    grid = model.bake(s, a, 17, clean=False)
+    pts = grid_points(17).reshape(-1, 3).astype(np.float32)
+    occ, albedo = model.query(pts, s, a)
+    evaluated = lattice_indices(17, 4)
+    sub = np.ix_(evaluated, evaluated, evaluated)
+    assert np.allclose(grid.density[sub], (SIGMA_MAX * occ).reshape(17, 17, 17)[sub], atol=1e-3)
+    assert np.allclose(grid.albedo[sub], albedo.reshape(17, 17, 17, 3)[sub], atol=1e-6)
+
+
+def test_strides_must_nest():
+    with pytest.raises(ValueError, match="divide"):
+        bake_arrays(lambda p: (p[:, 0], p), lambda f: f, 17, steps=(4, 3, 1))
+
+
+def test_cleanup_drops_small_parts_and_keeps_large_ones():
+    p = grid_points(33)
+    big = np.linalg.norm(p - [0.3, 0, 0], axis=-1) < 0.5
+    small = np.linalg.norm(p - [-0.7, -0.7, -0.7], axis=-1) < 0.12
+    occ = (big | small).astype(np.float32)
+    occ[np.linalg.norm(p - [-0.7, -0.7, -0.7], axis=-1) < 0.18] = np.maximum(
+        occ[np.linalg.norm(p - [-0.7, -0.7, -0.7], axis=-1) < 0.18], 0.2)  # a soft halo
+    cleaned, parts = clean_occupancy(occ, 0.02)
+    assert parts == 1
+    assert np.array_equal(cleaned > 0.5, big)
+    assert cleaned[np.linalg.norm(p - [-0.7, -0.7, -0.7], axis=-1) < 0.18].max() == 0.0  # halo too
+    kept, parts = clean_occupancy(occ, 0.0)
+    assert parts == 2 and np.array_equal(kept, occ)
+    empty, parts = clean_occupancy(np.zeros((5, 5, 5), np.float32), 0.02)
+    assert parts == 0 and not empty.any()
