@@ -44,7 +44,7 @@ def model_file(tmp_path_factory):
         first[:, 3] = -1.0  # relu(+-x_i - r)
         net.geometry_out.weight[0, :] = -K
         net.geometry_out.bias[0] = C
-        net.colour[0].weight[:3, 1:4] = torch.eye(3)  # relu(a), the feature unused
+        net.colour[0].weight[:3, -3:] = torch.eye(3)  # relu(a): the code's columns come last
         net.colour_out.weight[:, :3] = torch.eye(3)
         net.colour_out.bias[:] = -2.0
     book = CodeBook(

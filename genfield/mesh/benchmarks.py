@@ -9,6 +9,7 @@ query cost what a trained model's does. Both extractions query the same field in
 
 from __future__ import annotations
 
+import logging
 import os
 import time
 from pathlib import Path
@@ -16,6 +17,8 @@ from pathlib import Path
 import numpy as np
 
 from genfield.bench import Figure, case, median_seconds
+
+log = logging.getLogger(__name__)
 
 RESOLUTION = 128
 LARGE = 256
@@ -144,7 +147,9 @@ def quick_model_path(quick: bool) -> Path:
     import json
 
     from genfield import __version__
+    from genfield.errors import ModelFileError
     from genfield.field.config import load_config
+    from genfield.field.model import load_model
     from genfield.field.pipeline import train
     from genfield.paths import cache_dir
 
@@ -155,8 +160,13 @@ def quick_model_path(quick: bool) -> Path:
             t, steps=max(t.warmup_steps + 1, t.steps // 10)))
     key = hashlib.sha256(json.dumps([cfg.to_dict(), __version__], sort_keys=True).encode())
     path = cache_dir("bench-models") / f"quick-{key.hexdigest()[:16]}.safetensors"
-    if not path.exists():
-        train(cfg, base, path, progress=False)
+    if path.exists():
+        try:
+            load_model(path)
+            return path
+        except ModelFileError as err:  # written by another build of genfield: train again
+            log.warning("retraining the bench model: %s", err.one_line())
+    train(cfg, base, path, progress=False)
     return path
 
 
@@ -171,20 +181,23 @@ def _mesh_chamfer_trained(quick: bool) -> list[Figure]:
     book = model.codebook
     resolution = 64 if quick else RESOLUTION
     count = 30_000 if quick else 100_000
-    items, floors = [], {}
+    items, floors, empty = [], {}, 0
     for row, (family, source) in enumerate(zip(book.families, model.sources, strict=True)):
         asset = builtin_asset(source)
         if asset is None:
             continue  # a mesh source: its true surface is a file the bench does not have
         mesh, _ = variant_mesh(model, book.shape[row], None, resolution=resolution,
                                min_part=model.config.prior.clean_fraction)
+        if len(mesh.faces) == 0:
+            empty += 1  # no surface at all: no Chamfer distance to take
+            continue
         truth = asset.geometry.surface(count, rng(0, row, "bench-truth"))[0]
         items.append((family, mesh, truth))
         again = asset.geometry.surface(count, rng(1, row, "bench-truth"))[0]
         floors.setdefault(family, []).append(chamfer_distance(again, truth))
     scores = chamfer_by_family(items, rng(0, 0, "bench-chamfer"), count)
     steps = model.metrics.get("steps", "?")
-    return [
+    return [Figure("empty_meshes", float(empty), "", f"of {len(book.names)} training codes; must be 0")] + [
         Figure(f"chamfer_trained_{name}", value, "",
                f"quick preset model ({steps} steps), its training codes at {resolution}^3, "
                f"{count} points a side, object units; sampling floor "
