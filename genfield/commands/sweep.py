@@ -4,7 +4,8 @@ On a recipe: ``genfield sweep RECIPE --vary PARAM=VALUES [--vary PARAM2=VALUES] 
 sheet.png`` renders image INDEX of the recipe at one seed with PARAM set to each value (two
 --vary options make a grid, or with --zip one strip of paired values). VALUES is ``A..B:N``
 (N values from A to B, both ends included), ``V1,V2,...`` or one value; a unit written once
-(``0..90deg:7``) covers the list. With no --vary, the recipe's own sweep blocks are rendered.
+(``0..90deg:7``) covers the list. With no --vary, the recipe's own sweep blocks are rendered;
+--list prints the numbers a recipe lets you sweep.
 
 On a model: ``genfield sweep MODEL --shape A..B --appearance C --out sheet.png`` interpolates
 the shape code from named code A to B in --steps steps at C's appearance (or the reverse with
@@ -19,7 +20,7 @@ from pathlib import Path
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("source", help="recipe file, or model file with --shape/--appearance")
-    p.add_argument("--out", required=True, help="sheet PNG to write")
+    p.add_argument("--out", help="sheet PNG to write (required unless --list)")
     p.add_argument("--frames", metavar="DIR",
                    help="also write each frame as DIR/NNNN.png and its factors as DIR/NNNN.json")
     g = p.add_argument_group("recipe sweeps")
@@ -30,6 +31,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     g.add_argument("--model", help="model file to use instead of the one the recipe names")
     g.add_argument("--seed", type=int, help="seed for everything not swept (default: the recipe's)")
     g.add_argument("--index", type=int, default=0, help="which image of the recipe to hold (default 0)")
+    g.add_argument("--list", action="store_true",
+                   help="list the recipe's sweepable numbers (name, unit, what sets it) and stop")
     g = p.add_argument_group("model sweeps")
     g.add_argument("--shape", metavar="A[..B]", help="shape code: a name, or a range NAME..NAME")
     g.add_argument("--appearance", metavar="C[..D]",
@@ -82,7 +85,27 @@ def _recipe_sweep(args: argparse.Namespace):
     return recipe_sweep(loaded, varies, zipped=args.zip, seed=args.seed, index=args.index)
 
 
+def _list(args: argparse.Namespace) -> int:
+    """Print every parameter --vary can name, in the recipe's order."""
+    from genfield.recipe import load_recipe
+
+    recipe = load_recipe(_check_exists(args.source, "recipe"), model=args.model)
+    width = max((len(n) for n in recipe.parameters()), default=4)
+    for name in recipe.parameters():
+        info = recipe.params[name]
+        kind = "whole" if info.whole else info.unit
+        drawn = "random" if info.random else "fixed"
+        print(f"{name:{width}s}  {kind:7s} {drawn:7s} {info.source}")
+    return 0
+
+
 def run(args: argparse.Namespace) -> int:
+    from genfield.errors import UsageError
+
+    if args.list:
+        return _list(args)
+    if not args.out:
+        raise UsageError("--out is required: the sheet PNG to write")
     model_mode = args.shape is not None or args.appearance is not None
     sweeps = _model_sweep(args) if model_mode else _recipe_sweep(args)
     if not isinstance(sweeps, list):
