@@ -8,7 +8,6 @@ stderr.
 from __future__ import annotations
 
 import json
-import logging
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -19,11 +18,9 @@ from tqdm import tqdm
 
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene
-from genfield.sheets.layout import Sheet, contact_sheet, grid_sheet
+from genfield.sheets.layout import Sheet, contact_sheet, grid_sheet, save_png
 from genfield.sheets.overlay import labelled_tile
 from genfield.sheets.studio import LatentPlan, named_code, studio_scene
-
-log = logging.getLogger(__name__)
 
 
 def render_all(model: Any, scenes: Sequence[Scene], what: str) -> list[RenderOutput]:
@@ -80,8 +77,6 @@ class Sweep:
 
     def write_frames(self, folder: str | Path) -> list[Path]:
         """``NNNN.png`` (sRGB) and ``NNNN.json`` (factors and the whole scene) for each frame."""
-        from genfield.sheets.layout import save_png
-
         folder = Path(folder)
         folder.mkdir(parents=True, exist_ok=True)
         cols = len(self.column_labels)

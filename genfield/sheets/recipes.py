@@ -6,7 +6,6 @@ frame; ``draw_scene`` the concrete scene); this module renders them and lays the
 
 from __future__ import annotations
 
-import logging
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -16,8 +15,6 @@ from genfield.errors import UsageError
 from genfield.sheets.layout import Sheet
 from genfield.sheets.make import Sweep, preview_sheet, render_all
 from genfield.sheets.vary import Vary
-
-log = logging.getLogger(__name__)
 
 
 @dataclass(frozen=True)
