@@ -128,12 +128,13 @@ def test_a_second_demo_reuses_the_cached_model(demo, monkeypatch):
 
 
 def _two_families(model) -> tuple[str, str, str]:
-    """(A, A2, B): two codes of the first family and one of another."""
-    book = model.codebook
-    fam = book.families[0]
-    same = [n for n, f in zip(book.names, book.families, strict=True) if f == fam]
-    other = [n for n, f in zip(book.names, book.families, strict=True) if f != fam]
-    return same[0], same[-1], other[0]
+    """(A, A2, B): the two codes of one family whose shapes lie farthest apart, and the code
+    whose appearance lies farthest from A's (as the demo's latent sheet picks them)."""
+    from genfield.commands.demo import widest_codes
+
+    a, a2, b = widest_codes(model.codebook)
+    assert a != a2 and b != a
+    return a, a2, b
 
 
 def test_trained_appearance_sweep_moves_the_mean_colour_from_a_towards_b(model):

@@ -130,7 +130,7 @@ def check_summary(loaded) -> str:
             f"{len(r.sweeps)} sweep block(s); seed {r.dataset.seed}")
 
 
-def _widest(book) -> tuple[str, str, str]:
+def widest_codes(book) -> tuple[str, str, str]:
     """(A, A2, B): the two codes of one family whose shapes lie farthest apart, and the code
     whose appearance lies farthest from A's, so that the latent sheet shows the most."""
     import numpy as np
@@ -152,7 +152,7 @@ def make_sweeps(loaded, out: Path) -> list[Path]:
 
     paths = [sweep.sheet().save(out / f"sweep-{k + 1}.png")
              for k, sweep in enumerate(recipe_sweep(loaded, []))]
-    a, a2, b = _widest(loaded.model.codebook)
+    a, a2, b = widest_codes(loaded.model.codebook)
     if a != a2:
         plan = latent_plan(loaded.model.codebook, CodeRange(a, a2), CodeRange(a, b), steps=3)
         paths.append(latent_sweep(loaded.model, plan).sheet().save(out / "latent-sweep.png"))
@@ -166,12 +166,13 @@ def scene_glb(loaded, path: Path) -> Path:
 
     scene = draw_scene(loaded.recipe, loaded.model.codebook, loaded.recipe.dataset.seed, 0)
     # 64^3 keeps the demo quick and the file a few MB; 'genfield mesh' takes --resolution
-    parts = scene_parts(loaded.model, scene, resolution=64, floor=scene.backdrop.floor)
+    parts = scene_parts(loaded.model, scene, resolution=64, floor=scene.backdrop.floor,
+                        progress=True)
     return write_scene(parts, path)
 
 
 def next_steps(recipe: Path, model: Path, out: Path, book) -> list[str]:
-    a, a2, b = _widest(book)
+    a, a2, b = widest_codes(book)
     first = sorted((out / "dataset" / "images").glob("*.png"))
     return [
         f"genfield check {recipe} --model {model} --show 1   # the first concrete scene as JSON",
