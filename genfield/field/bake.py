@@ -4,9 +4,13 @@ A dense 64^3 bake runs the geometry trunk at 262,144 points; almost all of them 
 inside or far outside the object, where the occupancy is 0 or 1 and a trilinear guess is as
 good as the network. So the grid is evaluated level by level on nested lattices (every
 ``s``-th grid point, ``s`` = e.g. 4 then 1): the coarsest lattice everywhere; a finer one only in
-the cells of the coarser one whose eight corners do not agree confidently on inside/outside
-(|logit| < margin, or mixed signs), dilated by one cell; every other point takes the trilinear
+the cells of the coarser one whose exactly known points do not agree confidently on
+inside/outside (|logit| < margin, or mixed signs), traced from cell to cell across faces
+(the idea of MISE, Mescheder et al. 2019, section 3.3, with tracing in place of neighbour
+subdivision as in ``genfield.mesh.refine``); every other point takes the trilinear
 interpolation of the coarser level's logits. Colour is evaluated at the same points only.
+A part that falls wholly between coarse points, farther than the margin's reach from all of
+them, is missed: the bench (``field_bake``) measures the agreement with a dense bake.
 ``tests/test_field_bake.py`` checks the result against a dense evaluation.
 
 Small floating parts are removed last (``clean_occupancy``): connected components
@@ -66,25 +70,32 @@ def upsample(values: np.ndarray, coarse: np.ndarray, fine: np.ndarray) -> np.nda
     return values
 
 
-def uncertain_cells(logits: np.ndarray, margin: float) -> np.ndarray:
-    """(n-1,)^3 bool: cells whose corners are not all < -margin nor all > +margin, dilated by 1."""
-    corners = [logits[i : logits.shape[0] - 1 + i, j : logits.shape[1] - 1 + j,
-                      k : logits.shape[2] - 1 + k]
-               for i in (0, 1) for j in (0, 1) for k in (0, 1)]
-    lo = np.minimum.reduce(corners)
-    hi = np.maximum.reduce(corners)
-    flagged = (hi > -margin) & (lo < margin)
-    return ndimage.binary_dilation(flagged, structure=np.ones((3, 3, 3), bool))
-
-
-def _points_in_cells(cells: np.ndarray, coarse: np.ndarray, fine: np.ndarray) -> np.ndarray:
-    """(nf, nf, nf) bool: fine-lattice points on or inside a flagged coarse cell."""
-    # membership[a, c]: fine index a lies in the closed coarse cell c (up to two cells per point)
+def _membership(coarse: np.ndarray, fine: np.ndarray) -> np.ndarray:
+    """(n_fine, n_cells) float32: 1 where fine index a lies in the closed coarse cell c (a point
+    on a cell boundary belongs to both cells)."""
     lo, hi = coarse[:-1], coarse[1:]
-    member = ((fine[:, None] >= lo[None, :]) & (fine[:, None] <= hi[None, :])).astype(np.float32)
-    counts = np.einsum("ia,jb,kc,abc->ijk", member, member, member, cells.astype(np.float32),
-                       optimize=True)
-    return counts > 0
+    return ((fine[:, None] >= lo[None, :]) & (fine[:, None] <= hi[None, :])).astype(np.float32)
+
+
+def _any_in_cells(flags: np.ndarray, member: np.ndarray) -> np.ndarray:
+    """(nc, nc, nc) bool: closed coarse cells holding at least one flagged fine point."""
+    return np.einsum("ia,jb,kc,ijk->abc", member, member, member, flags.astype(np.float32),
+                     optimize=True) > 0
+
+
+def _points_in_cells(cells: np.ndarray, member: np.ndarray) -> np.ndarray:
+    """(nf, nf, nf) bool: fine-lattice points on or inside a flagged coarse cell."""
+    return np.einsum("ia,jb,kc,abc->ijk", member, member, member, cells.astype(np.float32),
+                     optimize=True) > 0
+
+
+def uncertain_cells(logits: np.ndarray, known: np.ndarray, member: np.ndarray,
+                    margin: float) -> np.ndarray:
+    """Coarse cells whose exactly known points do not all agree confidently: not all above
+    +margin and not all below -margin (mixed signs, or some point near the surface)."""
+    not_all_in = _any_in_cells(known & (logits < margin), member)
+    not_all_out = _any_in_cells(known & (logits > -margin), member)
+    return not_all_in & not_all_out
 
 
 def bake_arrays(geometry: GeometryFn, colour: ColourFn, resolution: int, *,
@@ -93,36 +104,45 @@ def bake_arrays(geometry: GeometryFn, colour: ColourFn, resolution: int, *,
     """Logits (R, R, R) and albedo (R, R, R, 3) of a field on the grid of ``grid.grid_points``.
 
     ``steps`` must end with 1 and each must divide the one before; ``(1,)`` is a dense bake.
+    Within a level the refinement is traced: once a cell is refined, the points on its faces
+    are known exactly, and a neighbour whose known points then disagree is refined too, until
+    no cell is left; so a surface found in one cell is followed across the level.
     """
     if steps[-1] != 1 or any(a % b for a, b in zip(steps, steps[1:], strict=False)):
         raise ValueError(f"lattice strides must divide each other and end with 1, got {steps}")
     axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)
-    logits = albedo = known = prev = None
-    evaluated, sizes = [], []
-    for stride in steps:
-        idx = lattice_indices(resolution, stride)
-        n = len(idx)
-        if prev is None:
-            todo = np.ones((n, n, n), bool)
-        else:
-            todo = _points_in_cells(uncertain_cells(logits, margin), prev, idx)
-            logits = upsample(logits, prev, idx)
-            albedo = upsample(albedo, prev, idx)
-            known = _nested(known, prev, idx)
-            todo &= ~known
-        if logits is None:
-            logits = np.zeros((n, n, n), np.float32)
-            albedo = np.zeros((n, n, n, 3), np.float32)
-            known = np.zeros((n, n, n), bool)
+
+    def evaluate(idx: np.ndarray, todo: np.ndarray, logits: np.ndarray, albedo: np.ndarray) -> int:
         ii, jj, kk = np.nonzero(todo)
         if len(ii):
             pts = np.stack([axis[idx[ii]], axis[idx[jj]], axis[idx[kk]]], axis=1)  # (m, 3)
             lg, feat = geometry(pts)
             logits[ii, jj, kk] = lg
             albedo[ii, jj, kk] = colour(feat)
-        known |= todo
-        evaluated.append(len(ii))
-        sizes.append(n**3)
+        return len(ii)
+
+    prev = lattice_indices(resolution, steps[0])
+    n = len(prev)
+    logits = np.zeros((n, n, n), np.float32)
+    albedo = np.zeros((n, n, n, 3), np.float32)
+    known = np.ones((n, n, n), bool)
+    evaluated, sizes = [evaluate(prev, known, logits, albedo)], [n**3]
+    for stride in steps[1:]:
+        idx = lattice_indices(resolution, stride)
+        member = _membership(prev, idx)
+        logits, albedo = upsample(logits, prev, idx), upsample(albedo, prev, idx)
+        known = _nested(known, prev, idx)
+        done = np.zeros((len(prev) - 1,) * 3, bool)
+        count = 0
+        cells = uncertain_cells(logits, known, member, margin)
+        while cells.any():
+            todo = _points_in_cells(cells, member) & ~known
+            count += evaluate(idx, todo, logits, albedo)
+            known |= todo
+            done |= cells
+            cells = uncertain_cells(logits, known, member, margin) & ~done
+        evaluated.append(count)
+        sizes.append(len(idx) ** 3)
         prev = idx
     return logits, albedo, BakeStats(tuple(evaluated), tuple(sizes))
 

@@ -16,6 +16,7 @@ from __future__ import annotations
 import logging
 import math
 import signal
+import threading
 import time
 from collections.abc import Callable
 from pathlib import Path
@@ -123,11 +124,14 @@ def run_training(cfg: TrainConfig, data: TrainingData, state: TrainState, *,
                 state.network.train()
     except KeyboardInterrupt:
         bar.close()
-        signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C must not cut the file
+        main = threading.current_thread() is threading.main_thread()  # signals: main thread only
+        if main:
+            signal.signal(signal.SIGINT, signal.SIG_IGN)  # a second Ctrl-C must not cut the file
         try:
             save_checkpoint(checkpoint_path, state, cfg, names)
         finally:
-            signal.signal(signal.SIGINT, previous_handler)
+            if main:
+                signal.signal(signal.SIGINT, previous_handler)
         log.info("interrupted at step %d; checkpoint saved to %s (continue with --resume %s)",
                  state.step, checkpoint_path, checkpoint_path)
         raise
