@@ -45,6 +45,7 @@ class Picture:
     caption: str
     recipe: Path
     lines: str
+    model: str = ""  # which model rendered it: a training config's name, or a file name
 
 
 def block_lines(recipe: Path, kinds: tuple[str, ...], label: str | None = None) -> str:
@@ -87,7 +88,10 @@ def thin(sweep, most: int):
 
 
 def pick_model(recipe: Path, models: list[tuple[Path, object]]):
-    """A Loaded recipe with the first model whose code table has every name it uses."""
+    """A Loaded recipe with the first model whose code table has every name it uses.
+
+    models: (file, loaded model) pairs, in order of preference.
+    """
     from genfield.errors import RecipeError
     from genfield.recipe import check_codes, load_recipe
     from genfield.sheets.recipes import Loaded
@@ -104,7 +108,7 @@ def pick_model(recipe: Path, models: list[tuple[Path, object]]):
     raise SystemExit(f"{recipe.name}: no model holds its codes: {'; '.join(misses)}")
 
 
-def pictures_of(loaded) -> list[Picture]:
+def pictures_of(loaded, model_label: str) -> list[Picture]:
     """Render one recipe's preview and sweep sheets into gallery/."""
     from genfield.sheets.recipes import recipe_preview, recipe_sweep
 
@@ -115,23 +119,25 @@ def pictures_of(loaded) -> list[Picture]:
         save_small(recipe_preview(loaded, PREVIEW_COUNT, columns=PREVIEW_COUNT).image,
                    GALLERY / f"{stem}.png"),
         f"`{rel}`: its first {PREVIEW_COUNT} images, masks tinted, boxes named, depth beside",
-        recipe, block_lines(recipe, ("object",)))]
+        recipe, block_lines(recipe, ("object",)), model_label)]
     for sweep in recipe_sweep(loaded, []) if loaded.recipe.sweeps else []:
         name = sweep.extra["sweep"]
         sheet = thin(sweep, MAX_FRAMES).sheet()
         out.append(Picture(save_small(sheet.image, GALLERY / f"{stem}-{name}.png"),
                            f"`{rel}`: sweep `{name}`", recipe,
-                           block_lines(recipe, ("sweep",), name)))
+                           block_lines(recipe, ("sweep",), name), model_label))
     return out
 
 
-def readme_section(pictures: list[Picture], models: list[Path]) -> str:
-    names = ", ".join(f"`{m.name}`" for m in models)
+def readme_section(pictures: list[Picture]) -> str:
     lines = [START, "## Gallery", "",
-             "Made by `make gallery` from the recipes in `recipes/` with the quick-preset models "
-             f"({names}); under each picture, the recipe lines that made it.", ""]
+             "Made by `make gallery` from the recipes in `recipes/`, with models trained by the "
+             "quick preset (the workshop families) and by `gallery/kitchen-quick.toml` (the "
+             "same settings over the kitchen families); under each picture, the recipe lines "
+             "that made it.", ""]
     for p in pictures:
-        lines += [f"![{p.caption}]({p.path.relative_to(ROOT).as_posix()})", "", p.caption, "",
+        caption = f"{p.caption} (model: {p.model})" if p.model else p.caption
+        lines += [f"![{p.path.stem}]({p.path.relative_to(ROOT).as_posix()})", "", caption, "",
                   "<details><summary>recipe lines</summary>", "", "```", p.lines, "```", "",
                   "</details>", ""]
     lines.append(END)
@@ -164,23 +170,23 @@ def main(argv: list[str] | None = None) -> int:
     from genfield.commands.demo import cached_model
     from genfield.field.model import load_model
 
-    paths = list(args.model or [])
-    for config in CONFIGS if not paths else ():
+    labels = {path: path.name for path in args.model or []}
+    for config in CONFIGS if not labels else ():
         path, how = cached_model(config)
         log.info("%s: %s", how, path)
-        paths.append(path)
-    models = [(path, load_model(path)) for path in paths]
+        labels[path] = Path(config).stem
+    models = [(path, load_model(path)) for path in labels]
     pictures: list[Picture] = []
     for recipe in sorted(args.recipes.glob("*.gfr")):
         loaded = pick_model(recipe, models)
         log.info("rendering %s with %s", recipe.name, loaded.model_path.name)
-        pictures += pictures_of(loaded)
+        pictures += pictures_of(loaded, labels[loaded.model_path])
     total = sum(pic.path.stat().st_size for pic in pictures)
     for pic in pictures:
         log.info("%-40s %6.1f KB", pic.path.name, pic.path.stat().st_size / 1024)
     log.info("%d pictures, %.0f KB in all", len(pictures), total / 1024)
     if not args.no_readme:
-        write_readme(readme_section(pictures, paths))
+        write_readme(readme_section(pictures))
     return 0
 
 

@@ -30,11 +30,11 @@ def test_readme_section_replaces_the_placeholder_then_itself(tmp_path):
     readme = tmp_path / "README.md"
     readme.write_text(f"# x\n\n{gallery.PLACEHOLDER}\n\n## after\n")
     pic = gallery.Picture(gallery.GALLERY / "a.png", "caption a", Path("r.gfr"), "sweep s {\n}")
-    gallery.write_readme(gallery.readme_section([pic], [Path("m.gfm")]), readme)
+    gallery.write_readme(gallery.readme_section([pic]), readme)
     once = readme.read_text()
-    assert gallery.PLACEHOLDER not in once and "![caption a](gallery/a.png)" in once
+    assert gallery.PLACEHOLDER not in once and "![a](gallery/a.png)" in once
     assert "sweep s {" in once and once.endswith("## after\n")
-    gallery.write_readme(gallery.readme_section([pic], [Path("m.gfm")]), readme)
+    gallery.write_readme(gallery.readme_section([pic]), readme)
     assert readme.read_text() == once  # regenerating is idempotent
 
 
