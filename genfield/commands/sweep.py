@@ -34,7 +34,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     g.add_argument("--list", action="store_true",
                    help="list the recipe's sweepable numbers (name, unit, what sets it) and stop")
     g = p.add_argument_group("model sweeps")
-    g.add_argument("--shape", metavar="A[..B]", help="shape code: a name, or a range NAME..NAME")
+    g.add_argument("--shape", metavar="A[..B]",
+                   help="shape code: a name, or a range NAME..NAME (default: the appearance's "
+                   "first name)")
     g.add_argument("--appearance", metavar="C[..D]",
                    help="appearance code: a name, or a range (default: the shape's first name)")
     g.add_argument("--steps", type=int, default=7, help="frames along each range (default 7)")
@@ -59,10 +61,12 @@ def _model_sweep(args: argparse.Namespace):
         raise UsageError("--vary, --zip, --model, --seed and --index are for recipe sweeps, "
                          "not with --shape/--appearance")
     model = load_model(_check_exists(args.source, "model file"))
-    if args.shape is None:
-        raise UsageError("a model sweep needs --shape NAME or --shape A..B")
-    shape = CodeRange.parse(args.shape, "--shape")
-    appearance = CodeRange.parse(args.appearance or shape.start, "--appearance")
+    if args.shape is not None:
+        shape = CodeRange.parse(args.shape, "--shape")
+        appearance = CodeRange.parse(args.appearance or shape.start, "--appearance")
+    else:  # only --appearance: the shape of its first code
+        appearance = CodeRange.parse(args.appearance, "--appearance")
+        shape = CodeRange(appearance.start)
     return latent_sweep(model, latent_plan(model.codebook, shape, appearance, args.steps))
 
 
