@@ -73,7 +73,7 @@ def test_bake_points_follow_the_grid_layout(trained):
 
 def test_strides_must_nest():
     with pytest.raises(ValueError, match="divide"):
-        bake_arrays(lambda p: (p[:, 0], p), lambda f: f, 17, steps=(4, 3, 1))
+        bake_arrays(lambda ijk: (ijk[:, 0], ijk), 17, steps=(4, 3, 1))
 
 
 def test_cleanup_drops_small_parts_and_keeps_large_ones():

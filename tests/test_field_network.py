@@ -53,6 +53,24 @@ def test_split_first_layer_equals_the_concatenated_input():
     assert torch.equal(feature[..., 4:], net.encoding(x))  # the skip of gamma(x)
 
 
+def test_grid_tables_give_the_network_function_at_grid_points():
+    # the fast path of bakes (per-axis tables of the first layers) against geometry + albedo
+    torch.manual_seed(1)
+    cfg = NetworkConfig(shape_dim=5, appearance_dim=3, octaves=3, width=16, depth=3, feature_dim=4,
+                        colour_width=8, colour_depth=2)
+    net = FieldNetwork(cfg)
+    axis = torch.linspace(-1, 1, 9)
+    ijk = torch.tensor([[0, 0, 0], [8, 3, 5], [4, 4, 4], [1, 7, 2]])
+    z_s, z_a = torch.randn(1, 5), torch.randn(1, 3)
+    with torch.no_grad():
+        logit, albedo = net.grid_forward(net.grid_tables(axis), ijk, z_s, z_a)
+        x = axis[ijk][None]  # (1, 4, 3) the grid points themselves
+        ref_logit, feature = net.geometry(x, z_s)
+        ref_albedo = net.albedo(feature, z_a)
+    assert torch.allclose(logit, ref_logit[0], atol=1e-5)
+    assert torch.allclose(albedo, ref_albedo[0], atol=1e-6)
+
+
 def test_appearance_changes_leave_occupancy_bit_identical(trained):
     model, _ = trained
     g = np.random.default_rng(0)

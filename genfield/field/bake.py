@@ -25,9 +25,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage
 
-# points -> (logits (n,), features (n, F)); features -> albedo (n, 3). Both numpy float32.
-GeometryFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
-ColourFn = Callable[[np.ndarray], np.ndarray]
+# grid indices (m, 3) int64 into the R^3 grid -> (logits (m,), albedo (m, 3)), numpy float32
+GridFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
 
 DEFAULT_STEPS = (4, 1)  # lattice strides, coarse to fine; each divides the one before
 DEFAULT_MARGIN = 5.0  # |logit| beyond which a cell whose corners agree is not refined (occupancy 0.7%)
@@ -98,7 +97,7 @@ def uncertain_cells(logits: np.ndarray, known: np.ndarray, member: np.ndarray,
     return not_all_in & not_all_out
 
 
-def bake_arrays(geometry: GeometryFn, colour: ColourFn, resolution: int, *,
+def bake_arrays(field: GridFn, resolution: int, *,
                 steps: tuple[int, ...] = DEFAULT_STEPS, margin: float = DEFAULT_MARGIN,
                 ) -> tuple[np.ndarray, np.ndarray, BakeStats]:
     """Logits (R, R, R) and albedo (R, R, R, 3) of a field on the grid of ``grid.grid_points``.
@@ -110,15 +109,13 @@ def bake_arrays(geometry: GeometryFn, colour: ColourFn, resolution: int, *,
     """
     if steps[-1] != 1 or any(a % b for a, b in zip(steps, steps[1:], strict=False)):
         raise ValueError(f"lattice strides must divide each other and end with 1, got {steps}")
-    axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)
 
     def evaluate(idx: np.ndarray, todo: np.ndarray, logits: np.ndarray, albedo: np.ndarray) -> int:
         ii, jj, kk = np.nonzero(todo)
         if len(ii):
-            pts = np.stack([axis[idx[ii]], axis[idx[jj]], axis[idx[kk]]], axis=1)  # (m, 3)
-            lg, feat = geometry(pts)
+            lg, alb = field(np.stack([idx[ii], idx[jj], idx[kk]], axis=1))  # grid indices (m, 3)
             logits[ii, jj, kk] = lg
-            albedo[ii, jj, kk] = colour(feat)
+            albedo[ii, jj, kk] = alb
         return len(ii)
 
     prev = lattice_indices(resolution, steps[0])

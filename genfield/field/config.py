@@ -73,6 +73,7 @@ class TrainingConfig:
     lr_final: float = _num(0.05, 0.0, 1.0)  # cosine decay ends at this fraction of the steps
     warmup_steps: int = _num(50, 0)  # linear learning-rate warm-up
     code_penalty: float = _num(1e-4, 0.0)  # lambda of the zero-mean Gaussian code prior
+    code_noise: float = _num(0.0, 0.0)  # std of Gaussian noise added to the codes each step
     colour_weight: float = _num(1.0, 0.0)  # weight of the colour L1 term
     preview_every: int = _num(0, 0)  # steps between preview sheets (0: only at the end)
     checkpoint_every: int = _num(0, 0)  # steps between checkpoints (0: only on Ctrl-C)

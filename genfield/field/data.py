@@ -34,6 +34,7 @@ class Batch:
     occupancy: torch.Tensor  # (B, P)
     surface_points: torch.Tensor  # (B, Q, 3)
     surface_colour: torch.Tensor  # (B, Q, 3)
+    code_noise: torch.Tensor | None = None  # (B, Ds + Da) added to the codes, or None
 
 
 class TrainingData:
@@ -63,8 +64,10 @@ class TrainingData:
     def asset_count(self) -> int:
         return int(self.points.shape[0])
 
-    def batch(self, seed: int, step: int, assets: int, points: int, surface: int) -> Batch:
-        """The samples of step ``step`` (a pure function of seed and step)."""
+    def batch(self, seed: int, step: int, assets: int, points: int, surface: int,
+              code_noise: float = 0.0, code_dim: int = 0) -> Batch:
+        """The samples of step ``step`` (a pure function of seed and step), and with
+        ``code_noise`` > 0 Gaussian noise of that std for ``code_dim`` code entries per asset."""
         g = rng(seed, step, "field-batch")
         a = self.asset_count
         chosen = np.sort(g.choice(a, size=min(assets, a), replace=False))  # (B,)
@@ -72,10 +75,13 @@ class TrainingData:
         si = g.integers(0, self.surface_points.shape[1], size=(len(chosen), surface))  # (B, Q)
         rows = torch.from_numpy(chosen)[:, None]  # (B, 1)
         pi_t, si_t = torch.from_numpy(pi), torch.from_numpy(si)
+        noise = (torch.from_numpy(g.normal(0.0, code_noise, (len(chosen), code_dim))
+                                  .astype(np.float32)) if code_noise > 0 else None)
         return Batch(
             assets=torch.from_numpy(chosen),
             points=self.points[rows, pi_t],
             occupancy=self.occupancy[rows, pi_t],
             surface_points=self.surface_points[rows, si_t],
             surface_colour=self.surface_colour[rows, si_t],
+            code_noise=noise,
         )

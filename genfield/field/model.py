@@ -129,9 +129,19 @@ class Model:
             raise ValueError(f"resolution must be >= 2, got {resolution}")
         s = self._code(shape, self.codebook.shape_dim, "shape")
         a = self._code(appearance, self.codebook.appearance_dim, "appearance")
-        logits, albedo, stats = bake_arrays(lambda p: self._geometry(p, s),
-                                            lambda f: self._colour(f, a), resolution,
-                                            steps=steps, margin=margin)
+        with torch.inference_mode():
+            axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)  # grid.grid_points' axis
+            tables = self.network.grid_tables(torch.from_numpy(axis))
+
+            def field(ijk: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+                logits = np.empty(len(ijk), np.float32)
+                albedo = np.empty((len(ijk), 3), np.float32)
+                for c in range(0, len(ijk), CHUNK):
+                    lg, alb = self.network.grid_forward(tables, torch.from_numpy(ijk[c : c + CHUNK]), s, a)
+                    logits[c : c + CHUNK], albedo[c : c + CHUNK] = lg.numpy(), alb.numpy()
+                return logits, albedo
+
+            logits, albedo, stats = bake_arrays(field, resolution, steps=steps, margin=margin)
         occupancy = 1.0 / (1.0 + np.exp(-np.clip(logits, -60.0, 60.0)))
         if clean:
             occupancy, _ = clean_occupancy(occupancy, self.config.prior.clean_fraction)

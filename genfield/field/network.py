@@ -29,6 +29,7 @@ share is computed once per asset, not once per point (the same for V_0 and z_a).
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import torch
 from torch import nn
@@ -52,6 +53,32 @@ class PositionalEncoding(nn.Module):
     def forward(self, x: torch.Tensor) -> torch.Tensor:
         xb = (x[..., None] * self.freqs).flatten(-2)  # (..., 3 L), axis-major
         return torch.cat([x, torch.sin(xb), torch.cos(xb)], dim=-1)  # (..., 3 + 6 L)
+
+    def axis_columns(self, axis: int) -> list[int]:
+        """The columns of gamma(x) that depend on coordinate ``axis`` alone."""
+        n = int(self.freqs.numel())
+        return ([axis] + [3 + axis * n + k for k in range(n)]
+                + [3 + 3 * n + axis * n + k for k in range(n)])
+
+    def axis_features(self, t: torch.Tensor) -> torch.Tensor:
+        """(R,) values of one coordinate -> (R, 1 + 2 L): (t, sin(2^k pi t), cos(2^k pi t)),
+        in the order of ``axis_columns``."""
+        tb = t[:, None] * self.freqs  # (R, L)
+        return torch.cat([t[:, None], torch.sin(tb), torch.cos(tb)], dim=1)
+
+
+@dataclass(frozen=True)
+class GridTables:
+    """Per-axis shares of the first layers on a grid (``FieldNetwork.grid_tables``).
+
+    trunk_xy: (R, R, W) and trunk_z: (R, W) so that W_0[:, :E] gamma(x_ijk) =
+    trunk_xy[i, j] + trunk_z[k]; colour_xy, colour_z the same for the gamma(x) columns of V_0.
+    """
+
+    trunk_xy: torch.Tensor
+    trunk_z: torch.Tensor
+    colour_xy: torch.Tensor
+    colour_z: torch.Tensor
 
 
 class FieldNetwork(nn.Module):
@@ -87,9 +114,9 @@ class FieldNetwork(nn.Module):
         first = self.trunk[0]
         e = enc.shape[-1]
         code_part = F.linear(shape, first.weight[:, e:], first.bias)  # (B, W)
-        h = torch.relu(F.linear(enc, first.weight[:, :e]) + code_part[:, None, :])  # (B, P, W)
+        h = torch.relu_(F.linear(enc, first.weight[:, :e]) + code_part[:, None, :])  # (B, P, W)
         for layer in self.trunk[1:]:
-            h = torch.relu(layer(h))  # (B, P, W)
+            h = torch.relu_(layer(h))  # (B, P, W); in place: ReLU's backward needs only its output
         out = self.geometry_out(h)  # (B, P, 1 + F)
         return out[..., 0], torch.cat([out[..., 1:], enc], dim=-1)  # (B, P), (B, P, F + E)
 
@@ -98,7 +125,47 @@ class FieldNetwork(nn.Module):
         f = self.feature_width
         first = self.colour[0]
         code_part = F.linear(appearance, first.weight[:, f:], first.bias)  # (B, Cw)
-        h = torch.relu(F.linear(feature, first.weight[:, :f]) + code_part[:, None, :])  # (B, P, Cw)
+        h = torch.relu_(F.linear(feature, first.weight[:, :f]) + code_part[:, None, :])  # (B, P, Cw)
         for layer in self.colour[1:]:
-            h = torch.relu(layer(h))  # (B, P, Cw)
+            h = torch.relu_(layer(h))  # (B, P, Cw)
         return torch.sigmoid(self.colour_out(h))  # (B, P, 3)
+
+    # --- grids: the same function, with the encoding's share of the first layers per axis ---
+    def grid_tables(self, axis: torch.Tensor) -> GridTables:
+        """Tables for grid points ``(axis[i], axis[j], axis[k])``; axis: (R,).
+
+        gamma(x) is a concatenation of per-coordinate parts, so a first layer's product with it
+        is a sum of three per-axis products: on a grid, tables (the x and y parts summed into
+        one (R, R, W) table) replace the encoding and the first matrix product at every point (exact up to float rounding;
+        ``tests/test_field_network.py`` compares it with ``geometry`` and ``albedo``).
+        """
+        part = self.encoding.axis_features(axis)  # (R, 1 + 2 L)
+        w0, v0 = self.trunk[0].weight, self.colour[0].weight
+        f = self.cfg.feature_dim
+        cols = [self.encoding.axis_columns(a) for a in range(3)]
+        tx, ty, tz = (part @ w0[:, c].T for c in cols)  # (R, W) each
+        cx, cy, cz = (part @ v0[:, [f + i for i in c]].T for c in cols)  # (R, Cw) each
+        return GridTables(trunk_xy=tx[:, None] + ty[None, :], trunk_z=tz,
+                          colour_xy=cx[:, None] + cy[None, :], colour_z=cz)
+
+    def grid_forward(self, tables: GridTables, ijk: torch.Tensor, shape: torch.Tensor,
+                     appearance: torch.Tensor) -> tuple[torch.Tensor, torch.Tensor]:
+        """Logits (m,) and albedo (m, 3) at grid points ijk (m, 3) int64, for one code pair
+        shape (1, Ds), appearance (1, Da)."""
+        e, f = self.encoding.out_dim, self.cfg.feature_dim
+        first, c_first = self.trunk[0], self.colour[0]
+        i, j, k = ijk[:, 0], ijk[:, 1], ijk[:, 2]
+        h = tables.trunk_xy[i, j] + tables.trunk_z[k]  # (m, W)
+        h += F.linear(shape, first.weight[:, e:], first.bias)  # the code's share, (1, W)
+        h = torch.relu_(h)
+        for layer in self.trunk[1:]:
+            h = torch.relu_(layer(h))  # (m, W)
+        out = self.geometry_out(h)  # (m, 1 + F)
+        g = F.linear(out[:, 1:], c_first.weight[:, :f])  # (m, Cw)
+        g += tables.colour_xy[i, j]
+        g += tables.colour_z[k]
+        g += F.linear(appearance, c_first.weight[:, f + e :], c_first.bias)
+        g = torch.relu_(g)
+        for layer in self.colour[1:]:
+            g = torch.relu_(layer(g))  # (m, Cw)
+        return out[:, 0], torch.sigmoid(self.colour_out(g))

@@ -2,10 +2,14 @@
 
 Loss of one step over a batch of B assets (DEVELOPERS.md, "Training"):
 
-    L = mean_BCE(logit(x, z_s), o)                       occupancy, cross-entropy with logits
-      + w_c * mean |albedo(f(x_s, z_s), z_a) - c|         colour L1 at surface samples
+    L = mean_BCE(logit(x, z_s + e_s), o)                 occupancy, cross-entropy with logits
+      + w_c * mean |albedo(f(x_s, z_s + e_s), z_a + e_a) - c|   colour L1 at surface samples
       + lambda * mean(|z_s|^2 + |z_a|^2)                  zero-mean Gaussian code prior,
                                                           DeepSDF eq. 9 (Park et al. 2019)
+
+with e ~ N(0, code_noise^2) fresh each step (0 by default): noise on the codes makes the
+decoder answer sensibly for a neighbourhood of every code, as a variational auto-decoder
+(Zadeh et al. 2019) does, so that draws from the prior between codes stay whole shapes.
 
 Adam (Kingma and Ba 2015) with separate step sizes for weights and codes, a linear warm-up
 and a cosine decay (Loshchilov and Hutter 2017, SGDR eq. 5 without restarts).
@@ -44,13 +48,16 @@ def loss_terms(state: TrainState, batch: Batch, cfg: TrainConfig) -> dict[str, t
     """The three loss terms of one batch (see the module docstring)."""
     zs = state.shape_codes[batch.assets]  # (B, Ds)
     za = state.appearance_codes[batch.assets]  # (B, Da)
+    code = zs.square().sum(1).mean() + za.square().sum(1).mean()
+    if batch.code_noise is not None:  # the decoder must answer for a neighbourhood of each code
+        zs = zs + batch.code_noise[:, : zs.shape[1]]
+        za = za + batch.code_noise[:, zs.shape[1] :]
     p = batch.points.shape[1]
     x = torch.cat([batch.points, batch.surface_points], dim=1)  # (B, P + Q, 3): one trunk pass
     logit, feature = state.network.geometry(x, zs)  # (B, P + Q), (B, P + Q, F)
     occupancy = F.binary_cross_entropy_with_logits(logit[:, :p], batch.occupancy)
     albedo = state.network.albedo(feature[:, p:], za)  # (B, Q, 3)
     colour = (albedo - batch.surface_colour).abs().mean()
-    code = zs.square().sum(1).mean() + za.square().sum(1).mean()
     return {"occupancy": occupancy, "colour": colour, "code": code}
 
 
@@ -109,7 +116,8 @@ def run_training(cfg: TrainConfig, data: TrainingData, state: TrainState, *,
     try:
         while state.step < t.steps and budget.fraction(state.step) < 1.0:
             batch = data.batch(cfg.seed, state.step, t.assets_per_step, t.points_per_asset,
-                               t.surface_points_per_asset)
+                               t.surface_points_per_asset, t.code_noise,
+                               cfg.network.shape_dim + cfg.network.appearance_dim)
             total = budget.total_for_schedule(state.step)
             terms = train_step(state, batch, cfg, lr_factor(state.step, total, t.warmup_steps,
                                                             t.lr_final))
