@@ -14,6 +14,7 @@ import contextlib
 import io
 import json
 import os
+import re
 import subprocess
 import sys
 from dataclasses import dataclass
@@ -40,8 +41,10 @@ class DemoRun:
 
     @property
     def model(self) -> Path:
-        (path,) = (self.cache / "models").glob("quick-*.gfm")
-        return path
+        """The model file the demo reported (step 1 prints how it came by it, and where)."""
+        (path,) = re.findall(r"^\s+(?:trained the quick preset|reused the cached model): (.+\.gfm)$",
+                             self.proc.stdout, flags=re.MULTILINE)
+        return Path(path)
 
 
 def _cli(*args: str, env: dict | None = None, timeout: int = 600) -> subprocess.CompletedProcess:
@@ -120,9 +123,10 @@ def test_demo_sheets_and_scene_mesh(demo):
 
 
 def test_a_second_demo_reuses_the_cached_model(demo, monkeypatch):
-    from genfield.commands.demo import demo_model
+    from genfield.commands.demo import cached_model_path, demo_model
 
     monkeypatch.setenv("GENFIELD_CACHE", str(demo.cache))
+    assert cached_model_path() == demo.model  # same key, so nothing is trained below
     path, how = demo_model(None, retrain=False)
     assert path == demo.model and how == "reused the cached model"
 
