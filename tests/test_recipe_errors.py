@@ -302,6 +302,14 @@ def test_the_model_path_may_not_leave_the_folder_either(tmp_path):
                                     f"folder {tmp_path}/r")
 
 
+@pytest.mark.parametrize("text", ['model "models/a\x00b.gfm"\n', 'include "a\x00.gfr"\n'])
+def test_a_path_with_a_nul_character_is_a_recipe_error(tmp_path, text):
+    # Found by tests/test_recipe_fuzz.py: the OS refuses such a path with a bare ValueError.
+    with pytest.raises(RecipeError, match="NUL character") as caught:
+        loads(text, path=tmp_path / "top.gfr")
+    assert caught.value.where.startswith(f"{tmp_path}/top.gfr:1:")
+
+
 def test_a_recipe_file_that_is_not_text_is_refused(tmp_path):
     from genfield.recipe import load_recipe
 

@@ -52,6 +52,8 @@ class _Loader:
         """The file a path in a recipe names; refused when it leaves the recipe's folder."""
         if not relative:
             raise error_at(f"the {what}'s path is empty", pos)
+        if "\0" in relative:
+            raise error_at(f"the {what}'s path holds a NUL character", pos)
         if os.path.isabs(relative) or relative.startswith("~"):
             raise error_at(f"the {what} {relative} must be a path relative to the recipe",
                            pos, hint="recipes name files inside their own folder")
