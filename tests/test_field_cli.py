@@ -69,7 +69,7 @@ def test_inspect_shows_codes_sources_prior_and_metrics(trained):
     text = _cli("inspect", str(out), env=env)
     assert text.returncode == 0, text.stderr
     for piece in ("genfield model format 1", "network parameters", "washer-0000",
-                  "builtin:bushing:seed=0:index=0", "prior: per-family Gaussian mixture",
+                  "builtin:bushing:seed=0:index=0", "prior: kernel mixture over the codes, bandwidth 0.3",
                   "fit: IoU@17", "views: mask IoU", "prior samples:"):
         assert piece in text.stdout, piece
     info = json.loads(_cli("inspect", str(out), "--json", env=env).stdout)

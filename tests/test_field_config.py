@@ -84,6 +84,12 @@ def test_a_family_count_inside_an_inline_table_points_at_its_line(tmp_path):
     assert "sources.families.washer" in err.message
 
 
+def test_a_choice_outside_its_list_is_refused(tmp_path):
+    err = _error(tmp_path, GOOD + '[prior]\nkind = "gaussian"\n')
+    assert err.where.endswith(":8")
+    assert "prior.kind: must be one of 'kernel', 'family', 'single'" in err.message
+
+
 def test_no_sources_is_refused(tmp_path):
     err = _error(tmp_path, "seed = 0\n")
     assert "no training sources" in err.message

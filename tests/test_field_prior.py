@@ -53,14 +53,20 @@ def test_per_family_mixture_has_one_component_per_family():
     shape = np.concatenate([g.normal(-2, 0.1, (6, 4)), g.normal(3, 0.1, (4, 4))])
     appearance = g.normal(size=(10, 2))
     families = ["a"] * 6 + ["b"] * 4
-    w, means, chols, info = fit_prior(shape, appearance, families, per_family=True)
+    w, means, chols, info = fit_prior(shape, appearance, families, "family")
     assert np.allclose(w, [0.6, 0.4])
     assert np.allclose(means[0, :4], shape[:6].mean(0)) and np.allclose(means[1, :4], shape[6:].mean(0))
     assert [c["family"] for c in info["components"]] == ["a", "b"]
     covs = chols @ np.transpose(chols, (0, 2, 1))
-    assert np.allclose(covs[0], ledoit_wolf(np.concatenate([shape, appearance], 1)[:6])[0], atol=1e-8)
-    w1, means1, _, _ = fit_prior(shape, appearance, families, per_family=False)
+    family_a = ledoit_wolf(np.concatenate([shape, appearance], 1)[:6])[0]
+    assert np.allclose(covs[0], family_a, atol=1e-8)
+    w1, means1, _, _ = fit_prior(shape, appearance, families, "single")
     assert w1.shape == (1,) and np.allclose(means1[0, :4], shape.mean(0))
+    # kernel: a component on every code, its family's covariance times bandwidth^2
+    wk, meansk, cholsk, infok = fit_prior(shape, appearance, families, "kernel", 0.3)
+    assert np.allclose(wk, 0.1) and np.allclose(meansk, np.concatenate([shape, appearance], 1))
+    assert np.allclose(cholsk[2] @ cholsk[2].T, 0.09 * family_a, atol=1e-8)
+    assert [c["family"] for c in infok["components"]] == families and infok["bandwidth"] == 0.3
 
 
 def test_draws_follow_the_fitted_gaussian():
@@ -68,7 +74,7 @@ def test_draws_follow_the_fitted_gaussian():
     shape = g.normal(size=(40, 3)) * [1.0, 0.5, 0.2] + 1.0
     book = CodeBook(tuple(f"c{i}" for i in range(40)), ("f",) * 40, shape,
                     g.normal(size=(40, 1)), np.ones(1), np.zeros((1, 4)), np.eye(4)[None])
-    book, _ = with_prior(book, per_family=True)
+    book, _ = with_prior(book, "family")
     draws = np.array([np.concatenate(book.sample_prior(g)) for _ in range(4000)])
     assert np.allclose(draws.mean(0), book.prior_means[0], atol=0.06)
     cov = book.prior_chols[0] @ book.prior_chols[0].T

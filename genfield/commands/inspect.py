@@ -86,12 +86,12 @@ def _text(info: dict) -> str:
             lines.append(f"  against {g['reference']} unseen assets: COV {g['coverage']:.3f}, "
                          f"MMD-CD {g['mmd_chamfer_l1']:.4f}, 1-NNA {g['nna']:.3f} (ideal 0.5)")
     prior = info["prior"]
-    comps = prior.get("components", [])
-    lines.append(f"prior: {prior.get('kind', '?')}, {prior.get('covariance', '')}, "
-                 f"{len(comps)} component(s)")
-    for c, w in zip(comps, prior["weights"], strict=False):
-        shrink = "pooled" if c["shrinkage"] is None else f"shrinkage {c['shrinkage']:.3f}"
-        lines.append(f"  {c['family']:14s} weight {w:.3f}  {c['codes']} codes, {shrink}")
+    width = f", bandwidth {prior['bandwidth']:g}" if "bandwidth" in prior else ""
+    lines.append(f"prior: {prior.get('kind', '?')}{width}, {prior.get('covariance', '')}, "
+                 f"{len(prior.get('components', []))} component(s)")
+    for g in prior.get("groups", []):
+        shrink = "pooled" if g["shrinkage"] is None else f"shrinkage {g['shrinkage']:.3f}"
+        lines.append(f"  {g['family']:14s} {g['codes']} codes, covariance {shrink}")
     for name, f in m.get("fitted", {}).items():
         lines.append(f"fitted: {name} IoU {f['iou']:.4f}, colour L1 {f['colour_l1']:.4f} "
                      f"(from {f['source']})")

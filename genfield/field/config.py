@@ -83,7 +83,10 @@ class TrainingConfig:
 class PriorConfig:
     """The prior over (shape, appearance) codes, fitted after training."""
 
-    per_family: bool = True  # one Gaussian per family (a mixture), else one over all codes
+    kind: str = field(default="kernel", metadata={"choices": ("kernel", "family", "single")})
+    # kernel: a Gaussian around every code (family covariance x bandwidth^2); family: one
+    # Gaussian per family; single: one Gaussian over all codes (genfield/field/prior.py)
+    bandwidth: float = _num(0.3, 0.0, 1.0, lo_open=True)  # kernel width, in family spreads
     clean_fraction: float = _num(0.02, 0.0, 1.0)  # drop parts below this share of the volume
     samples: int = _num(64, 0)  # prior draws scored for validity (0: skip)
 
@@ -250,6 +253,10 @@ def _convert(tp: Any, f: dataclasses.Field, value: Any, path: tuple[str, ...], w
     if not ok:
         raise _error(f"expected {_type_name(tp)}, got {value!r}", path, where, locate)
     value = float(value) if tp is float else value
+    choices = f.metadata.get("choices")
+    if choices and value not in choices:
+        raise _error(f"must be one of {', '.join(map(repr, choices))}, got {value!r}", path,
+                     where, locate)
     lo, hi = f.metadata.get("lo"), f.metadata.get("hi")
     if lo is not None and (value <= lo if f.metadata.get("lo_open") else value < lo):
         raise _error(f"must be {'>' if f.metadata.get('lo_open') else '>='} {lo}, got {value!r}",

@@ -79,7 +79,7 @@ def model_from_state(cfg: TrainConfig, state: TrainState, assets: list) -> Model
         appearance=state.appearance_codes.detach().numpy().copy(),
         prior_weights=np.ones(1), prior_means=np.zeros((1, 1)), prior_chols=np.ones((1, 1, 1)),
     )
-    book, info = with_prior(book, cfg.prior.per_family)
+    book, info = with_prior(book, cfg.prior.kind, cfg.prior.bandwidth)
     net = copy.deepcopy(state.network)
     return Model(config=cfg, network=net, codebook=book, sources=tuple(a.source for a in assets),
                  prior_info=info)
