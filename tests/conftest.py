@@ -1,9 +1,9 @@
 """Suite-wide fixtures.
 
-genfield turns on torch's flush-denormal mode (FTZ/DAZ, a process-wide CPU setting) wherever
-it trains or renders, because denormal floats slowed the network 2-3x. Tests share one
-process, so every test after a torch test would inherit it; hypothesis then refuses to run
-(it checks that subnormal floats exist). Each test gets the CPU's default mode back.
+genfield turns on torch's flush-denormal mode (FTZ/DAZ, a process-wide CPU setting) while it
+trains or renders (``genfield.compute.heavy_work``, which turns it off again on exit). A test
+that sets it some other way must not leak it into the next: hypothesis refuses to run when
+subnormal floats do not exist. Each test gets the CPU's default mode back.
 """
 
 from __future__ import annotations

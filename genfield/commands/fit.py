@@ -43,9 +43,8 @@ def run(args: argparse.Namespace) -> int:
     if not mesh.is_file():
         raise UsageError(f"no mesh file at {args.mesh!r}")
 
-    import torch
-
     from genfield.assets import load_mesh_assets
+    from genfield.compute import heavy_work
     from genfield.field.fitting import FitSettings, fit_code, with_code
     from genfield.field.model import load_model
 
@@ -53,11 +52,11 @@ def run(args: argparse.Namespace) -> int:
     if args.name in model.codebook.names:
         raise UsageError(f"{args.model} already has a code named {args.name!r}",
                          hint="choose another --name")
-    torch.set_num_threads(args.threads or model.config.resolved_threads())
     (asset,) = load_mesh_assets(mesh, up=args.up)
     start = time.perf_counter()
-    fit = fit_code(model, asset, FitSettings(steps=args.steps, samples=args.samples, seed=args.seed),
-                   progress=not args.quiet)
+    with heavy_work(args.threads or model.config.resolved_threads()):
+        fit = fit_code(model, asset, FitSettings(steps=args.steps, samples=args.samples,
+                                                 seed=args.seed), progress=not args.quiet)
     seconds = time.perf_counter() - start
     with_code(model, args.name, asset.family, asset.source, fit).save(args.out)
     print(f"wrote {args.out}: {args.name} fitted in {seconds:.1f} s from {fit.start}, "

@@ -158,25 +158,23 @@ def run(args: argparse.Namespace) -> int:
     import os
     import time
 
-    import torch
-
+    from genfield.compute import heavy_work
     from genfield.mesh.export import write_mesh, write_scene
 
     _check(args)
-    torch.set_num_threads(max(1, args.threads or os.cpu_count() or 1))
-    torch.set_flush_denormal(True)
     start = time.perf_counter()
-    if args.index is None:
-        mesh, stats, note = _one_pair(args)
-        write_mesh(mesh, args.out)
-        print(f"{args.out}: {len(mesh.vertices)} vertices, {len(mesh.faces)} faces in {note}; "
-              f"{stats.points_evaluated} field points ({100 * stats.fraction:.1f}% of a dense "
-              f"{args.resolution}^3 grid) in {time.perf_counter() - start:.1f} s")
-    else:
-        parts, seed = _scene(args)
-        write_scene(parts, args.out)
-        faces = sum(len(p.mesh.faces) for p in parts)
-        print(f"{args.out}: scene {args.index} (seed {seed}), {len(parts)} nodes "
-              f"({', '.join(p.name for p in parts)}), {faces} faces in metres, world frame; "
-              f"{time.perf_counter() - start:.1f} s")
+    with heavy_work(max(1, args.threads or os.cpu_count() or 1)):
+        if args.index is None:
+            mesh, stats, note = _one_pair(args)
+            write_mesh(mesh, args.out)
+            print(f"{args.out}: {len(mesh.vertices)} vertices, {len(mesh.faces)} faces in {note}; "
+                  f"{stats.points_evaluated} field points ({100 * stats.fraction:.1f}% of a dense "
+                  f"{args.resolution}^3 grid) in {time.perf_counter() - start:.1f} s")
+        else:
+            parts, seed = _scene(args)
+            write_scene(parts, args.out)
+            faces = sum(len(p.mesh.faces) for p in parts)
+            print(f"{args.out}: scene {args.index} (seed {seed}), {len(parts)} nodes "
+                  f"({', '.join(p.name for p in parts)}), {faces} faces in metres, world frame; "
+                  f"{time.perf_counter() - start:.1f} s")
     return 0

@@ -18,6 +18,7 @@ import numpy as np
 import torch
 from torch.nn import functional as F
 
+from genfield.compute import heavy_work
 from genfield.field.checkpoint import TrainState
 from genfield.field.codebook import CodeBook
 from genfield.field.data import TrainingData
@@ -70,14 +71,20 @@ def fit_code(model: Model, asset, settings: FitSettings = FitSettings(), *,
              progress: bool = False) -> FitResult:
     """Optimise a code pair for ``asset`` (anything with ``occupancy``/``colour_srgb`` that
     ``genfield.assets.sample_ground_truth`` accepts); the model is not changed."""
-    from tqdm import tqdm
-
     from genfield.assets import sample_ground_truth
 
     truth = sample_ground_truth(asset, settings.samples, seed=settings.seed)
     held = min(2048, len(truth.surface_points) // 4)  # surface samples kept out for scoring
     data = TrainingData([truth], held_out_surface=held)
     row = _start_row(model, truth)
+    with heavy_work():
+        return _optimise(model, asset, settings, truth, data, held, row, progress)
+
+
+def _optimise(model: Model, asset, settings: FitSettings, truth, data: TrainingData, held: int,
+              row: int, progress: bool) -> FitResult:
+    from tqdm import tqdm
+
     shape = torch.nn.Parameter(torch.from_numpy(model.codebook.shape[row].copy())[None])
     appearance = torch.nn.Parameter(torch.from_numpy(model.codebook.appearance[row].copy())[None])
     opt = torch.optim.Adam([shape, appearance], lr=settings.lr)

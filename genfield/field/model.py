@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 import torch
 
+from genfield.compute import heavy_work
 from genfield.errors import ModelFileError
 from genfield.field.bake import (
     DEFAULT_MARGIN,
@@ -55,7 +56,6 @@ class Model:
     prior_info: dict[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        torch.set_flush_denormal(True)  # denormals slow the products 2-3x (issue 5, measured)
         self.network.eval()
         for p in self.network.parameters():
             p.requires_grad_(False)
@@ -78,7 +78,7 @@ class Model:
         pts = np.ascontiguousarray(points, dtype=np.float32).reshape(-1, 3)
         logits = np.empty(len(pts), np.float32)
         feats = np.empty((len(pts), self.network.feature_width), np.float32)
-        with torch.inference_mode():
+        with torch.inference_mode(), heavy_work():
             for s in range(0, len(pts), CHUNK):
                 x = torch.from_numpy(pts[s : s + CHUNK])[None]  # (1, n, 3)
                 lg, ft = self.network.geometry(x, shape)
@@ -88,7 +88,7 @@ class Model:
 
     def _colour(self, feats: np.ndarray, appearance: torch.Tensor) -> np.ndarray:
         out = np.empty((len(feats), 3), np.float32)
-        with torch.inference_mode():
+        with torch.inference_mode(), heavy_work():
             for s in range(0, len(feats), CHUNK):
                 f = torch.from_numpy(feats[s : s + CHUNK])[None]  # (1, n, F)
                 out[s : s + CHUNK] = self.network.albedo(f, appearance)[0].numpy()
@@ -129,7 +129,7 @@ class Model:
             raise ValueError(f"resolution must be >= 2, got {resolution}")
         s = self._code(shape, self.codebook.shape_dim, "shape")
         a = self._code(appearance, self.codebook.appearance_dim, "appearance")
-        with torch.inference_mode():
+        with torch.inference_mode(), heavy_work():
             axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)  # grid.grid_points' axis
             tables = self.network.grid_tables(torch.from_numpy(axis))
 

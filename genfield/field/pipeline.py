@@ -13,8 +13,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-import torch
 
+from genfield.compute import heavy_work
 from genfield.errors import ConfigError
 from genfield.field.checkpoint import TrainState, load_checkpoint, new_state
 from genfield.field.codebook import CodeBook
@@ -124,8 +124,11 @@ def _held_out(truth, count: int) -> _Surface:
 def train(cfg: TrainConfig, base_dir: Path, out: Path, *, resume: Path | None = None,
           progress: bool = True) -> Model:
     """Train, score and write the model file ``out``; returns the model."""
-    torch.set_num_threads(cfg.resolved_threads())
-    torch.set_flush_denormal(True)
+    with heavy_work(cfg.resolved_threads()):
+        return _train(cfg, base_dir, out, resume, progress)
+
+
+def _train(cfg: TrainConfig, base_dir: Path, out: Path, resume: Path | None, progress: bool) -> Model:
     sources = resolve_sources(cfg, base_dir)
     truths = sample_truths(sources.assets, cfg, progress)
     held = cfg.evaluation.surface_points

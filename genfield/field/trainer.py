@@ -106,8 +106,6 @@ def run_training(cfg: TrainConfig, data: TrainingData, state: TrainState, *,
     from tqdm import tqdm
 
     t = cfg.training
-    torch.set_flush_denormal(True)  # denormals slowed backward 2-3x late in training (issue 5)
-    torch.set_num_threads(cfg.resolved_threads())
     budget = _Budget(cfg, state.elapsed)
     state.network.train()
     bar = tqdm(total=t.steps, initial=state.step, desc="training", unit="step",

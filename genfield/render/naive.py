@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 
+from genfield.compute import heavy_work
 from genfield.field.grid import SIGMA_MAX
 from genfield.render.camera import pixel_rays
 from genfield.render.composite import LN2
@@ -89,6 +90,11 @@ def _chunk(model: Any, scene: Scene, origins: np.ndarray, directions: np.ndarray
 
 def render_per_sample(model: Any, scene: Scene, *, samples: int = 48) -> RenderOutput:
     """Render ``scene`` with ``samples`` model queries per ray and box (module doc)."""
+    with heavy_work():  # the settings render_scene runs under, so the two compare fairly
+        return _render(model, scene, samples)
+
+
+def _render(model: Any, scene: Scene, samples: int) -> RenderOutput:
     cam = scene.camera
     h, w = cam.height, cam.width
     n, k_objects = h * w, len(scene.objects)

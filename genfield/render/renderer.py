@@ -17,9 +17,9 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-import torch
 
 from genfield.colour import srgb_to_linear
+from genfield.compute import heavy_work
 from genfield.render.cache import GridCache, default_cache
 from genfield.render.camera import pixel_rays
 from genfield.render.composite import composite
@@ -135,8 +135,11 @@ def render_scene(model: Any, scene: Scene, *, options: RenderOptions = RenderOpt
 
     ``cache`` defaults to the process-wide one, bounded by ``options``.
     """
-    torch.set_num_threads(options.threads)
-    torch.set_flush_denormal(True)
+    with heavy_work(options.threads):
+        return _render(model, scene, options, cache)
+
+
+def _render(model: Any, scene: Scene, options: RenderOptions, cache: GridCache | None) -> RenderOutput:
     cam, lit, backdrop = scene.camera, scene.light, scene.backdrop
     h, w = cam.height, cam.width
     n, k_objects = h * w, len(scene.objects)
