@@ -66,6 +66,16 @@ def median_seconds(fn: Callable[[], object], repeats: int, warmup: int = 1) -> f
     return statistics.median(times)
 
 
+def quick_model():
+    """The quick-preset model the demo uses, from its cache (trained on first use, about half
+    a minute on two free cores); the benchmark cases that need a trained model share it."""
+    from genfield.commands.demo import demo_model
+    from genfield.field.model import load_model
+
+    path, _ = demo_model(None, False)
+    return load_model(path)
+
+
 def machine() -> dict[str, object]:
     """What the figures were measured on."""
     return {

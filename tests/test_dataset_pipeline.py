@@ -127,3 +127,26 @@ def test_scene_dataset_reads_back_the_written_masks_and_boxes(dataset):
             assert np.array_equal(target["masks"][n].numpy(), ids == ann["instance_id"])
             x, y, w, h = ann["bbox"]
             assert target["boxes"][n].tolist() == [x, y, x + w, y + h]
+
+
+def test_the_recipes_detail_sets_the_grid_resolution_the_renderer_bakes(tmp_path):
+    # detail is grid cells per pixel across an object's cube: halving it asks for a coarser
+    # grid (genfield.render.options.RESOLUTION_LADDER) for the same scene.
+    def resolutions(detail: str) -> set[int]:
+        folder = tmp_path / detail
+        folder.mkdir()
+        (folder / "tray.gfr").write_text(RECIPE.replace("  images 6\n", f"  images 6\n  detail {detail}\n"))
+        pipeline = analytic_pipeline(analytic_job(folder / "tray.gfr", ASSETS))
+        seen: set[int] = set()
+        bake = pipeline.model.bake
+
+        def recording(shape, appearance, resolution):
+            seen.add(resolution)
+            return bake(shape, appearance, resolution)
+
+        pipeline.model.bake = recording
+        pipeline.render(pipeline.draw(0))
+        return seen
+
+    fine, coarse = resolutions("2"), resolutions("1")
+    assert coarse and fine and max(coarse) < max(fine)

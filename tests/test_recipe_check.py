@@ -69,6 +69,15 @@ def test_dataset_settings_and_defaults(tmp_path):
     d = check("", tmp_path).dataset
     assert (d.count, d.seed, d.splits, d.outputs) == (
         100, 0, {"train": 0.8, "val": 0.1, "test": 0.1}, frozenset({"image", "mask"}))
+    assert d.detail == 2.0 and check("dataset {\n  detail 1\n}\n", tmp_path).dataset.detail == 1.0
+
+
+def test_detail_outside_its_range_is_an_error_at_the_value(tmp_path):
+    from genfield.errors import RecipeError
+
+    with pytest.raises(RecipeError, match="between 0.5 and 4") as caught:
+        check("dataset {\n  detail 0.1\n}\n", tmp_path)
+    assert caught.value.where.endswith("r.gfr:2:10")
 
 
 def test_light_backdrop_and_layout(tmp_path):

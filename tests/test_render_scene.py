@@ -118,12 +118,15 @@ def test_camera_inside_an_object_cube():
 
 
 def test_auto_resolution_follows_screen_size():
-    opts = RenderOptions(cells_per_pixel=1.0)
-    assert auto_resolution(opts, 10.0) == 17
-    assert auto_resolution(opts, 20.0) == 33
-    assert auto_resolution(opts, 40.0) == 65
+    opts = RenderOptions(cells_per_pixel=1.0)  # the rung nearest in ratio: cells = resolution - 1
+    assert auto_resolution(opts, 10.0) == 17  # min_resolution
+    assert auto_resolution(opts, 20.0) == 25  # 24 cells: ratio 1.2, against 32: 1.6
+    assert auto_resolution(opts, 38.0) == 33  # 32 cells: ratio 1.19, against 48: 1.26
+    assert auto_resolution(opts, 40.0) == 49
+    assert auto_resolution(opts, 60.0) == 65
+    assert auto_resolution(opts, 200.0) == 65  # max_resolution
     assert auto_resolution(opts, math.inf) == 65
-    assert auto_resolution(RenderOptions(), 10.0) == 33  # two cells a pixel by default
+    assert auto_resolution(RenderOptions(), 16.0) == 33  # two cells a pixel by default
     assert auto_resolution(RenderOptions(max_resolution=33), 200.0) == 33
     assert auto_resolution(RenderOptions(grid_resolution=40), 5.0) == 40
     # a cube 2 s wide at depth z spans 2 s f / z pixels (pinhole)

@@ -15,7 +15,7 @@ from pathlib import Path
 
 import numpy as np
 
-from genfield.dataset.job import DATASET_RENDER, JobSpec, job_of, load_job_recipe
+from genfield.dataset.job import JobSpec, job_of, load_job_recipe, render_options
 from genfield.field.codebook import CodeBook
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene
@@ -56,7 +56,7 @@ class AnalyticPipeline:
     def render(self, scene: Scene) -> RenderOutput:
         from genfield.render.renderer import render_scene
 
-        return render_scene(self.model, scene, options=DATASET_RENDER)
+        return render_scene(self.model, scene, options=render_options(self.recipe))
 
 
 def analytic_pipeline(spec: JobSpec) -> AnalyticPipeline:

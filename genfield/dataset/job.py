@@ -19,7 +19,7 @@ import os
 import tempfile
 import threading
 from collections import OrderedDict
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from functools import cached_property
 from pathlib import Path, PurePosixPath
 from typing import Protocol
@@ -36,6 +36,11 @@ RECIPE_PIPELINE = "genfield.dataset.job:recipe_pipeline"
 # codes drawn from the prior never repeat, so a large cache would only make memory grow
 # with the number of images up to its bound.
 DATASET_RENDER = RenderOptions(threads=1, memory_cache_mb=64.0)
+
+
+def render_options(recipe) -> RenderOptions:
+    """How a dataset's images are rendered: DATASET_RENDER at the recipe's ``detail``."""
+    return replace(DATASET_RENDER, cells_per_pixel=recipe.dataset.detail)
 
 
 class Pipeline(Protocol):
@@ -123,7 +128,7 @@ class _RecipePipeline:
     def render(self, scene: Scene) -> RenderOutput:
         from genfield.render.renderer import render_scene
 
-        return render_scene(self.model, scene, options=DATASET_RENDER)
+        return render_scene(self.model, scene, options=render_options(self.recipe))
 
 
 _TEMP_FOLDERS: set[str] = set()  # where job recipes were read from, to be cut from messages

@@ -74,7 +74,7 @@ class SceneDataset(Dataset):
         index = int(self.indices[item])
         record, _ = read_record(self.root, index, self.count)
         rgb = read_png(self.root / image_file("image", index, self.count))  # (H, W, 3) uint8
-        image = torch.from_numpy(rgb).permute(2, 0, 1).float() / 255.0  # (3, H, W)
+        image = torch.tensor(rgb).permute(2, 0, 1).float() / 255.0  # (3, H, W)
         h, w = rgb.shape[:2]
         anns = record["annotations"]
         masks = np.zeros((len(anns), h, w), dtype=np.uint8)  # (N, H, W)

@@ -12,11 +12,10 @@ from __future__ import annotations
 import logging
 import os
 import time
-from pathlib import Path
 
 import numpy as np
 
-from genfield.bench import Figure, case, median_seconds
+from genfield.bench import Figure, case, median_seconds, quick_model
 
 log = logging.getLogger(__name__)
 
@@ -139,45 +138,13 @@ def _mesh_chamfer(quick: bool) -> list[Figure]:
     ]
 
 
-def quick_model_path(quick: bool) -> Path:
-    """The quick preset's model, trained once and kept in the cache under its config's hash;
-    with ``quick``, a tenth of the steps (the figures then show the machinery, not quality)."""
-    import dataclasses
-    import hashlib
-    import json
-
-    from genfield import __version__
-    from genfield.errors import ModelFileError
-    from genfield.field.config import load_config
-    from genfield.field.model import load_model
-    from genfield.field.pipeline import train
-    from genfield.paths import cache_dir
-
-    cfg, base = load_config("quick")
-    if quick:
-        t = cfg.training
-        cfg = dataclasses.replace(cfg, training=dataclasses.replace(
-            t, steps=max(t.warmup_steps + 1, t.steps // 10)))
-    key = hashlib.sha256(json.dumps([cfg.to_dict(), __version__], sort_keys=True).encode())
-    path = cache_dir("bench-models") / f"quick-{key.hexdigest()[:16]}.safetensors"
-    if path.exists():
-        try:
-            load_model(path)
-            return path
-        except ModelFileError as err:  # written by another build of genfield: train again
-            log.warning("retraining the bench model: %s", err.one_line())
-    train(cfg, base, path, progress=False)
-    return path
-
-
 @case("mesh_chamfer_trained", "Chamfer-L1 of a trained model's meshes to its training assets")
 def _mesh_chamfer_trained(quick: bool) -> list[Figure]:
-    from genfield.field.model import load_model
     from genfield.mesh.from_model import builtin_asset, variant_mesh
     from genfield.mesh.quality import chamfer_by_family, chamfer_distance
     from genfield.seeds import rng
 
-    model = load_model(quick_model_path(quick))
+    model = quick_model()
     book = model.codebook
     resolution = 64 if quick else RESOLUTION
     count = 30_000 if quick else 100_000

@@ -31,6 +31,7 @@ POSITIVE = Bound(0.0, lo_open=True, text="> 0")
 NON_NEGATIVE = Bound(0.0, text=">= 0")
 FRACTION = Bound(0.0, 1.0, text="between 0 and 1")
 FIELD_OF_VIEW = Bound(0.0, math.pi, True, True, text="between 0deg and 180deg (both excluded)")
+DETAIL = Bound(0.5, 4.0, text="between 0.5 and 4")  # genfield.render.options.RenderOptions.cells_per_pixel
 ELEVATION = Bound(-math.pi / 2, math.pi / 2, True, True,
                   text="between -90deg and 90deg (both excluded)")
 
@@ -80,6 +81,8 @@ BLOCKS: dict[str, BlockSchema] = {
             "val": Slot("number", fixed=True, bound=FRACTION, doc="fraction for validation"),
             "test": Slot("number", fixed=True, bound=FRACTION, doc="fraction for testing"),
             "outputs": Slot("words", words=OUTPUTS, many=True, doc="what to write per image"),
+            "detail": Slot("number", fixed=True, bound=DETAIL,
+                           doc="baked grid cells per pixel an object spans (2; 1 is faster)"),
         },
         doc="how many images, the seed, the splits and the outputs",
     ),

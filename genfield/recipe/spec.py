@@ -20,6 +20,7 @@ class DatasetSpec:
     seed: int
     splits: dict[str, float]  # {"train": f, "val": f, "test": f}, summing to 1
     outputs: frozenset[str]  # e.g. {"image", "mask", "depth"}
+    detail: float = 2.0  # grid cells per pixel (genfield.render.options.RenderOptions.cells_per_pixel)
 
 
 @dataclass(frozen=True)

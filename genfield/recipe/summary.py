@@ -26,7 +26,7 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
     lines.append(f"model: {model}" + (f" ({model_note})" if model_note else ""))
     splits = " / ".join(f"{k} {x:g}" for k, x in d.splits.items())
     lines.append(f"dataset: {d.count} images, seed {d.seed}; {splits}; "
-                 f"outputs {', '.join(sorted(d.outputs))}")
+                 f"outputs {', '.join(sorted(d.outputs))}; detail {d.detail:g}")
     lines.append(f"classes ({len(recipe.classes)}): {', '.join(recipe.classes) or '(none)'}")
     for obj in recipe.objects:
         count = recipe.params[f"{obj.name}.count"].source

@@ -7,9 +7,11 @@ from dataclasses import dataclass, fields
 
 from genfield.errors import UsageError
 
-# Grid sizes the renderer asks a model to bake when it chooses the resolution itself: 2^k + 1
-# points per axis, so that every coarse cell of the skipping grid holds whole fine cells.
-RESOLUTION_LADDER: tuple[int, ...] = (17, 33, 65, 129)
+# Grid sizes the renderer asks a model to bake when it chooses the resolution itself: 8 k + 1
+# points per axis, so that every coarse cell of the skipping grid (4 fine cells) and of the
+# bake's first lattice (stride 4) holds whole fine cells; rungs about sqrt(2) apart, so the
+# nearest one is within about 19% of the detail asked for.
+RESOLUTION_LADDER: tuple[int, ...] = (17, 25, 33, 49, 65, 97, 129)
 
 
 @dataclass(frozen=True)
@@ -59,13 +61,15 @@ class RenderOptions:
 def auto_resolution(options: RenderOptions, cube_pixels: float) -> int:
     """The grid size for an object whose cube spans ``cube_pixels`` pixels on screen.
 
-    The smallest ladder entry with at least ``cells_per_pixel`` cells per pixel, kept within
-    [min_resolution, max_resolution]; a fixed ``grid_resolution`` wins over all of it.
+    The ladder entry whose cells across the cube are nearest (in ratio) to ``cells_per_pixel``
+    times ``cube_pixels``, kept within [min_resolution, max_resolution]; a fixed
+    ``grid_resolution`` wins over all of it. Nearest, not "at least": a cube a pixel wider
+    than a rung would otherwise cost a bake twice the size.
     """
     if options.grid_resolution is not None:
         return options.grid_resolution
     want = options.cells_per_pixel * cube_pixels
-    for r in RESOLUTION_LADDER:
-        if r - 1 >= want and r >= options.min_resolution:
-            return min(r, options.max_resolution)
-    return options.max_resolution
+    if not math.isfinite(want):
+        return options.max_resolution
+    best = min(RESOLUTION_LADDER, key=lambda r: abs(math.log((r - 1) / max(want, 1e-9))))
+    return max(options.min_resolution, min(best, options.max_resolution))

@@ -23,15 +23,18 @@ from genfield.sheets.overlay import labelled_tile
 from genfield.sheets.studio import LatentPlan, named_code, studio_scene
 
 
-def render_all(model: Any, scenes: Sequence[Scene], what: str) -> list[RenderOutput]:
+def render_all(model: Any, scenes: Sequence[Scene], what: str,
+               detail: float = 2.0) -> list[RenderOutput]:
     """Render every scene with ``genfield.render.render_scene``, showing progress.
 
     Sheets show visible masks only, so the amodal masks (one more pass per object) are skipped.
+    ``detail``: grid cells per pixel, as a recipe's dataset sets it (so a preview looks like
+    the dataset).
     """
     from genfield.render.options import RenderOptions
     from genfield.render.renderer import render_scene
 
-    options = RenderOptions(amodal=False)
+    options = RenderOptions(amodal=False, cells_per_pixel=detail)
     return [render_scene(model, s, options=options)
             for s in tqdm(scenes, desc=what, unit="image", leave=False)]
 

@@ -69,7 +69,8 @@ def sweeps_of(loaded: Loaded, frames: Sequence[Any], seed: int, source: str) -> 
         names = list(group[0].overrides)
         scenes = [draw_scene(loaded.recipe, loaded.model.codebook, seed, f.index,
                              overrides=f.overrides) for f in group]
-        outputs = render_all(loaded.model, scenes, f"sweep {name or ' & '.join(names)}")
+        outputs = render_all(loaded.model, scenes, f"sweep {name or ' & '.join(names)}",
+                             loaded.recipe.dataset.detail)
         rows = 1 + max(f.cell[0] for f in group)
         cols = 1 + max(f.cell[1] for f in group)
         cells = {f.cell: f for f in group}
@@ -119,6 +120,6 @@ def recipe_preview(loaded: Loaded, count: int = 16, *, seed: int | None = None,
     seed = recipe.dataset.seed if seed is None else seed
     count = min(count, recipe.dataset.count)
     scenes = [draw_scene(recipe, loaded.model.codebook, seed, i) for i in range(count)]
-    outputs = render_all(loaded.model, scenes, "preview")
+    outputs = render_all(loaded.model, scenes, "preview", recipe.dataset.detail)
     title = f"{recipe.path.name}: images 0-{count - 1}, seed {seed}"
     return preview_sheet(scenes, outputs, title=title, style=style, columns=columns)
