@@ -195,7 +195,7 @@ def test_cli_recipe_sweep_and_preview(demo, tmp_path):
 
     recipe = str(demo_recipe())
     proc = _cli("sweep", recipe, "--model", str(demo.model), "--vary",
-                "camera.azimuth=0..90deg:3", "--out", str(tmp_path / "turn.png"))
+                "camera.azimuth=0deg..90deg steps 3", "--out", str(tmp_path / "turn.png"))
     assert proc.returncode == 0, proc.stderr
     proc = _cli("preview", recipe, "--model", str(demo.model), "--count", "2", "--outline",
                 "--out", str(tmp_path / "p.png"))
@@ -206,9 +206,9 @@ def test_cli_recipe_sweep_and_preview(demo, tmp_path):
 @pytest.mark.parametrize(
     ("args", "message"),
     [
-        (["--vary", "camera.azimut=0..90deg:3"], "did you mean 'camera.azimuth'"),
-        (["--vary", "camera.azimuth=0..90deg"], "step count"),
-        (["--vary", "camera.azimuth=0..90deg:3", "--zip"], "--zip pairs"),
+        (["--vary", "camera.azimut=0deg..90deg steps 3"], "did you mean 'camera.azimuth'"),
+        (["--vary", "camera.azimuth=0deg..90deg"], "a sweep takes fixed values"),
+        (["--vary", "camera.azimuth=0deg..90deg steps 3", "--zip"], "--zip pairs"),
         (["--shape", "nothing-here..x"], "no code named 'nothing-here'"),
     ],
 )

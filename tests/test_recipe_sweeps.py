@@ -76,6 +76,15 @@ def test_vary_checks_names_units_and_bounds(tmp_path):
         sweep_frames(r)
 
 
+def test_a_bad_vary_value_points_at_its_column_in_param_equals_values(tmp_path):
+    # the values are read as the line "PARAM VALUES", so a column counts as in "PARAM=VALUES"
+    r = check("", tmp_path)
+    with pytest.raises(RecipeError) as caught:
+        sweep_frames(r, [("cup.yaw", "0..90deg:3")])
+    assert caught.value.where == "--vary:1:17" and "got ':'" in caught.value.message
+    assert "cup.yaw=0..90deg:3"[17 - 1] == ":"
+
+
 def test_all_sweep_blocks_or_one_by_name(tmp_path):
     r = check("sweep a {\n  cup.yaw 0deg, 1deg\n}\nsweep b {\n  camera.fov 30deg\n}\n", tmp_path)
     assert [f.sweep for f in sweep_frames(r)] == ["a", "a", "b"]

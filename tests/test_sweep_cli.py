@@ -31,7 +31,7 @@ def test_list_names_every_sweepable_number_with_its_unit():
     ("args", "message"),
     [
         (["sweep", RECIPE], "--out is required"),
-        (["sweep", RECIPE, "--vary", "camera.azimuth=0..90deg", "--out", "x.png"], "step count"),
+        (["sweep", RECIPE, "--vary", "camera.azimuth", "--out", "x.png"], "expected PARAM=VALUES"),
         (["sweep", RECIPE, "--vary", "a=1", "--zip", "--out", "x.png"], "--zip pairs"),
         (["sweep", RECIPE, "--vary", "a=1", "--vary", "b=1", "--vary", "c=1", "--out", "x.png"],
          "two axes"),

@@ -12,7 +12,6 @@ from skimage.transform import rotate
 from genfield.errors import RecipeError
 from genfield.recipe import load_recipe
 from genfield.sheets.recipes import Loaded, recipe_preview, recipe_sweep
-from genfield.sheets.vary import parse_vary
 from tests._sheet_doubles import BlendModel
 
 torch.set_num_threads(1)
@@ -116,7 +115,7 @@ def test_the_recipes_own_zipped_weight_sweep_moves_colour_from_a_to_b(tmp_path, 
 
 def test_vary_camera_azimuth_turns_the_depth_map_and_keeps_the_area(tmp_path, model):
     loaded = _loaded(tmp_path, ONE_OBJECT, model)
-    (sweep,) = recipe_sweep(loaded, [parse_vary("camera.azimuth=0..90deg:4")])
+    (sweep,) = recipe_sweep(loaded, [("camera.azimuth", "0deg..90deg steps 4")])
     assert sweep.column_labels == ("0deg", "30deg", "60deg", "90deg")
     assert sweep.column_title == "camera.azimuth"
     areas = np.array([(o.instance_ids > 0).sum() for o in sweep.outputs])
@@ -133,8 +132,8 @@ def test_vary_camera_azimuth_turns_the_depth_map_and_keeps_the_area(tmp_path, mo
 
 def test_two_parameters_make_a_grid_with_units_on_both_axes(tmp_path, model):
     loaded = _loaded(tmp_path, SCATTER, model)
-    (sweep,) = recipe_sweep(loaded, [parse_vary("camera.elevation=20,50deg"),
-                                     parse_vary("brick.yaw=0..90deg:3")], index=1)
+    (sweep,) = recipe_sweep(loaded, [("camera.elevation", "20deg, 50deg"),
+                                     ("brick.yaw", "0deg..90deg steps 3")], index=1)
     assert sweep.row_title == "camera.elevation" and sweep.row_labels == ("20deg", "50deg")
     assert sweep.column_labels == ("0deg", "45deg", "90deg")
     sheet = sweep.sheet()
@@ -151,8 +150,8 @@ def test_two_parameters_make_a_grid_with_units_on_both_axes(tmp_path, model):
 
 def test_zip_pairs_values_and_frames_record_their_factors(tmp_path, model):
     loaded = _loaded(tmp_path, SCATTER, model)
-    (sweep,) = recipe_sweep(loaded, [parse_vary("camera.distance=2.2..2.6m:3"),
-                                     parse_vary("light.strength=0.5,1,1.5")], zipped=True)
+    (sweep,) = recipe_sweep(loaded, [("camera.distance", "2.2m..2.6m steps 3"),
+                                     ("light.strength", "0.5, 1, 1.5")], zipped=True)
     assert sweep.row_labels == () and len(sweep.outputs) == 3
     files = sweep.write_frames(tmp_path / "frames")
     assert len(files) == 6
@@ -165,10 +164,10 @@ def test_zip_pairs_values_and_frames_record_their_factors(tmp_path, model):
 def test_a_bad_parameter_is_a_recipe_error_with_a_suggestion(tmp_path, model):
     loaded = _loaded(tmp_path, SCATTER, model)
     with pytest.raises(RecipeError) as err:
-        recipe_sweep(loaded, [parse_vary("camera.azimut=0..90deg:3")])
+        recipe_sweep(loaded, [("camera.azimut", "0deg..90deg steps 3")])
     assert "camera.azimuth" in err.value.one_line()
     with pytest.raises(RecipeError):
-        recipe_sweep(loaded, [parse_vary("camera.fov=0..200deg:3")])  # outside (0, 180)
+        recipe_sweep(loaded, [("camera.fov", "0deg..200deg steps 3")])  # outside (0, 180)
 
 
 def test_preview_draws_labelled_tiles_of_the_first_images(tmp_path, model):

@@ -176,7 +176,7 @@ def next_steps(recipe: Path, model: Path, out: Path, book) -> list[str]:
     first = sorted((out / "dataset" / "images").glob("*.png"))
     return [
         f"genfield check {recipe} --model {model} --show 1   # the first concrete scene as JSON",
-        f"genfield sweep {recipe} --model {model} --vary camera.azimuth=0..180deg:7 "
+        f"genfield sweep {recipe} --model {model} --vary 'camera.azimuth=0deg..180deg steps 7' "
         f"--out {out / 'turn.png'}",
         f"genfield sweep {model} --shape {a}..{a2} --appearance {b} --out {out / 'codes.png'}",
         f"genfield inspect {model} --sheet {out / 'codes-sheet.png'}",

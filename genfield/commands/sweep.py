@@ -2,10 +2,10 @@
 
 On a recipe: ``genfield sweep RECIPE --vary PARAM=VALUES [--vary PARAM2=VALUES] --out
 sheet.png`` renders image INDEX of the recipe at one seed with PARAM set to each value (two
---vary options make a grid, or with --zip one strip of paired values). VALUES is ``A..B:N``
-(N values from A to B, both ends included), ``V1,V2,...`` or one value; a unit written once
-(``0..90deg:7``) covers the list. With no --vary, the recipe's own sweep blocks are rendered;
---list prints the numbers a recipe lets you sweep.
+--vary options make a grid, or with --zip one strip of paired values). VALUES are written as
+in a recipe's sweep block: ``0deg..90deg steps 7`` (7 values, both ends included),
+``1cm, 1.5cm, 2cm`` or one value (quote them for the shell). With no --vary, the recipe's own
+sweep blocks are rendered; --list prints the numbers a recipe lets you sweep.
 
 On a model: ``genfield sweep MODEL --shape A..B --appearance C --out sheet.png`` interpolates
 the shape code from named code A to B in --steps steps at C's appearance (or the reverse with
@@ -25,7 +25,8 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    help="also write each frame as DIR/NNNN.png and its factors as DIR/NNNN.json")
     g = p.add_argument_group("recipe sweeps")
     g.add_argument("--vary", action="append", default=[], metavar="PARAM=VALUES",
-                   help="a recipe number to sweep, e.g. camera.azimuth=0..90deg:7 (at most twice)")
+                   help="a recipe number to sweep, values as in a sweep block, e.g. "
+                        "'camera.azimuth=0deg..90deg steps 7' (at most twice)")
     g.add_argument("--zip", action="store_true",
                    help="pair the values of two --vary options into one strip instead of a grid")
     g.add_argument("--model", help="model file to use instead of the one the recipe names")
@@ -70,21 +71,31 @@ def _model_sweep(args: argparse.Namespace):
     return latent_sweep(model, latent_plan(model.codebook, shape, appearance, args.steps))
 
 
+def _vary(text: str) -> tuple[str, str]:
+    """``PARAM=VALUES`` to (parameter, values text); the recipe reads the values."""
+    from genfield.errors import UsageError
+
+    param, eq, values = text.partition("=")
+    if not eq or not param.strip() or not values.strip():
+        raise UsageError(f"--vary {text}: expected PARAM=VALUES",
+                         hint="e.g. --vary 'camera.azimuth=0deg..90deg steps 7'")
+    return param.strip(), values.strip()
+
+
 def _recipe_sweep(args: argparse.Namespace):
     from genfield.errors import UsageError
     from genfield.sheets.recipes import load_recipe_and_model, recipe_sweep
-    from genfield.sheets.vary import parse_vary
 
     if args.steps != 7:
         raise UsageError("--steps is for model sweeps (--shape/--appearance); "
-                         "a recipe sweep gives its steps in VALUES, e.g. 0..90:7")
+                         "a recipe sweep gives its steps in VALUES, e.g. 0deg..90deg steps 7")
     if len(args.vary) > 2:
         raise UsageError(f"--vary: a sheet has two axes, got {len(args.vary)} --vary options")
     if args.zip and len(args.vary) != 2:
         raise UsageError("--zip pairs the values of exactly two --vary options")
     if args.index < 0:
         raise UsageError(f"--index must be >= 0, got {args.index}")
-    varies = [parse_vary(text) for text in args.vary]
+    varies = [_vary(text) for text in args.vary]
     loaded = load_recipe_and_model(_check_exists(args.source, "recipe"), args.model)
     return recipe_sweep(loaded, varies, zipped=args.zip, seed=args.seed, index=args.index)
 

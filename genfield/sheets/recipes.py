@@ -14,7 +14,6 @@ from typing import Any
 from genfield.errors import UsageError
 from genfield.sheets.layout import Sheet
 from genfield.sheets.make import Sweep, preview_sheet, render_all
-from genfield.sheets.vary import Vary
 
 
 @dataclass(frozen=True)
@@ -49,11 +48,6 @@ def _value_text(value: float, info: Any) -> str:
     from genfield.recipe.values import show
 
     return str(int(round(value))) if info.whole else show(value, info.unit)
-
-
-def _vary_text(v: Vary) -> list[str]:
-    """--vary values as recipe number text ("15.0deg"), so the recipe converts units."""
-    return [f"{x!r}{v.unit}" for x in v.values]
 
 
 def sweeps_of(loaded: Loaded, frames: Sequence[Any], seed: int, source: str) -> list[Sweep]:
@@ -98,13 +92,13 @@ def sweeps_of(loaded: Loaded, frames: Sequence[Any], seed: int, source: str) -> 
     return out
 
 
-def recipe_sweep(loaded: Loaded, varies: Sequence[Vary], *, zipped: bool = False,
+def recipe_sweep(loaded: Loaded, varies: Sequence[tuple[str, str]], *, zipped: bool = False,
                  seed: int | None = None, index: int = 0) -> list[Sweep]:
-    """Sweeps of a recipe: of the --vary parameters, or (none given) of its sweep blocks."""
+    """Sweeps of a recipe: of the --vary (parameter, values text) pairs, or (none given) of
+    its sweep blocks."""
     from genfield.recipe import sweep_frames
 
-    vary = [(v.param, _vary_text(v)) for v in varies]
-    frames = sweep_frames(loaded.recipe, vary, zipped=zipped, index=index)
+    frames = sweep_frames(loaded.recipe, varies, zipped=zipped, index=index)
     seed = loaded.recipe.dataset.seed if seed is None else seed
     return sweeps_of(loaded, frames, seed, loaded.recipe.path.name)
 
