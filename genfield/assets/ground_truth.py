@@ -154,7 +154,8 @@ def _builtin_worker(job: tuple[str, int, int, int, int]) -> str:
 
 
 def sample_ground_truths(assets: list[Asset], count: int = 100_000, *, seed: int = 0,
-                         cache: bool = True, processes: int = 1) -> list[GroundTruth]:
+                         cache: bool = True, processes: int = 1,
+                         progress: bool = True) -> list[GroundTruth]:
     """Ground truth of many assets, in their order, with a progress bar on stderr.
 
     With ``processes`` > 1 and the cache on, built-in assets missing from the cache are sampled
@@ -175,7 +176,8 @@ def sample_ground_truths(assets: list[Asset], count: int = 100_000, *, seed: int
         ctx = multiprocessing.get_context("spawn")
         with ctx.Pool(min(processes, len(jobs))) as pool:
             for _ in tqdm(pool.imap_unordered(_builtin_worker, jobs), total=len(jobs),
-                          desc="ground truth", unit="asset"):
+                          desc="ground truth", unit="asset", disable=not progress):
                 pass
     return [sample_ground_truth(a, count, seed=seed, cache=cache)
-            for a in tqdm(assets, desc="ground truth", unit="asset", disable=len(assets) < 2)]
+            for a in tqdm(assets, desc="ground truth", unit="asset",
+                          disable=not progress or len(assets) < 2)]

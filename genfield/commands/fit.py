@@ -37,8 +37,10 @@ def run(args: argparse.Namespace) -> int:
         raise UsageError("--steps and --threads must be >= 1, --seed >= 0")
     if args.samples < 4096:
         raise UsageError(f"--samples must be >= 4096, got {args.samples}")
-    if not args.out.endswith(".safetensors"):
-        raise UsageError(f"--out must end in .safetensors, got {args.out!r}")
+    from genfield.field.modelfile import MODEL_SUFFIXES
+
+    if Path(args.out).suffix not in MODEL_SUFFIXES:
+        raise UsageError(f"--out must end in {' or '.join(MODEL_SUFFIXES)}, got {args.out!r}")
     mesh = Path(args.mesh)
     if not mesh.is_file():
         raise UsageError(f"no mesh file at {args.mesh!r}")

@@ -13,7 +13,7 @@ import argparse
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("config", nargs="?", help="training config (TOML) or a preset: quick, default")
-    p.add_argument("--out", help="model file to write (.safetensors)")
+    p.add_argument("--out", help="model file to write (.gfm, or .safetensors: the same format)")
     p.add_argument("--resume", metavar="CKPT", help="continue from a checkpoint of this config")
     p.add_argument("--threads", type=int, metavar="N",
                    help="torch threads (overrides the config; fixes the result with the seed)")
@@ -34,12 +34,14 @@ def run(args: argparse.Namespace) -> int:
         return 0
     if not args.config or not args.out:
         raise UsageError("give a config (a .toml file or 'quick' / 'default') and --out MODEL",
-                         hint="e.g. 'genfield train quick --out quick.safetensors'")
+                         hint="e.g. 'genfield train quick --out quick.gfm'")
     if args.threads is not None and args.threads < 1:
         raise UsageError(f"--threads must be >= 1, got {args.threads}")
     out = Path(args.out)
-    if out.suffix != ".safetensors":
-        raise UsageError(f"--out must end in .safetensors, got {args.out!r}")
+    from genfield.field.modelfile import MODEL_SUFFIXES
+
+    if out.suffix not in MODEL_SUFFIXES:
+        raise UsageError(f"--out must end in {' or '.join(MODEL_SUFFIXES)}, got {args.out!r}")
     resume = Path(args.resume) if args.resume else None
     if resume is not None and not resume.is_file():
         raise UsageError(f"--resume: no checkpoint at {args.resume!r}")

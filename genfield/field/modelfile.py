@@ -35,6 +35,9 @@ from genfield.errors import ModelFileError
 
 FORMAT_NAME = "genfield-field"
 FORMAT_VERSION = 1
+# What a model file may be called: .gfm (genfield model) is the name recipes and the demo use;
+# .safetensors, which it also is, so that tools made for that format recognise it.
+MODEL_SUFFIXES = (".gfm", ".safetensors")
 JSON_KEYS = ("config", "names", "families", "sources", "prior", "metrics")
 
 

@@ -62,13 +62,12 @@ def resolve_sources(cfg: TrainConfig, base_dir: Path) -> Sources:
 
 
 def sample_truths(assets: list, cfg: TrainConfig, progress: bool) -> list:
-    """Ground-truth samples of every asset (cached on disk by the asset package)."""
-    from tqdm import tqdm
+    """Ground-truth samples of every asset (cached on disk by the asset package); built-in
+    assets missing from the cache are sampled by one process per training thread."""
+    from genfield.assets import sample_ground_truths
 
-    from genfield.assets import sample_ground_truth
-
-    return [sample_ground_truth(a, cfg.sources.samples_per_asset, seed=cfg.seed)
-            for a in tqdm(assets, desc="ground truth", unit="asset", disable=not progress)]
+    return sample_ground_truths(assets, cfg.sources.samples_per_asset, seed=cfg.seed,
+                                processes=cfg.resolved_threads(), progress=progress)
 
 
 def model_from_state(cfg: TrainConfig, state: TrainState, assets: list) -> Model:
