@@ -126,11 +126,15 @@ def _vary_values(recipe: Recipe, name: str, values: str | Sequence[float | str])
     out: list[float] = []
     for x in [values] if isinstance(values, str) else values:
         if isinstance(x, str):
-            program = parse_text(f"{name} {x}\n", "--vary")  # read as a sweep block's line
-            setting = program.statements[0] if len(program.statements) == 1 else None
-            if not isinstance(setting, ast.Setting):
-                raise RecipeError(f"cannot read the values {x!r} for {name}", where="--vary")
-            out.extend(_series(setting.values, info, lowering))
+            try:  # read as a sweep block's line; a column counts as in "PARAM=VALUES"
+                program = parse_text(f"{name} {x}\n", "--vary")
+                setting = program.statements[0] if len(program.statements) == 1 else None
+                if not isinstance(setting, ast.Setting):
+                    raise RecipeError(f"cannot read the values {x!r} for {name}", where="--vary")
+                out.extend(_series(setting.values, info, lowering))
+            except RecipeError as err:
+                err.context = None  # the user typed one option, not this line: one line says it
+                raise
         else:
             value = float(x)
             if info.bound is not None and not info.bound.holds(value):
