@@ -30,7 +30,7 @@ from genfield.bench import Figure, case, quick_model
 
 SIZE = 128
 OBJECTS = 5
-NOTE = "trained quick-preset model; other work shared the CPU"
+NOTE = "trained quick-preset model"
 
 
 def _scene(codes: list[tuple[np.ndarray, np.ndarray]], *, shadows: bool = False):
