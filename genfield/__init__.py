@@ -7,8 +7,7 @@ that ``import genfield`` stays cheap (no torch until a model is used).
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from genfield.lazy import lazy_getattr
 
 __version__ = "0.1.0"
 
@@ -50,7 +49,4 @@ _PUBLIC: dict[str, str] = {
 __all__ = ["__version__", *_PUBLIC]
 
 
-def __getattr__(name: str) -> Any:
-    if name in _PUBLIC:
-        return getattr(importlib.import_module(_PUBLIC[name]), name)
-    raise AttributeError(f"module 'genfield' has no attribute {name!r}")
+__getattr__ = lazy_getattr(__name__, _PUBLIC)

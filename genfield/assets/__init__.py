@@ -5,8 +5,7 @@ The public names are imported lazily, so ``import genfield.assets`` does not pul
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from genfield.lazy import lazy_getattr
 
 # public name -> module that defines it
 _PUBLIC: dict[str, str] = {
@@ -26,7 +25,4 @@ _PUBLIC: dict[str, str] = {
 __all__ = list(_PUBLIC)
 
 
-def __getattr__(name: str) -> Any:
-    if name in _PUBLIC:
-        return getattr(importlib.import_module(_PUBLIC[name]), name)
-    raise AttributeError(f"module 'genfield.assets' has no attribute {name!r}")
+__getattr__ = lazy_getattr(__name__, _PUBLIC)

@@ -7,10 +7,9 @@ package does not import torch.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from genfield.lazy import lazy_getattr
 
-_NAMES = {
+_PUBLIC = {
     "JobSpec": "genfield.dataset.job",
     "job_from_recipe": "genfield.dataset.job",
     "write_dataset": "genfield.dataset.writer",
@@ -18,10 +17,7 @@ _NAMES = {
     "SceneDataset": "genfield.dataset.reader",
 }
 
-__all__ = list(_NAMES)
+__all__ = list(_PUBLIC)
 
 
-def __getattr__(name: str) -> Any:
-    if name in _NAMES:
-        return getattr(importlib.import_module(_NAMES[name]), name)
-    raise AttributeError(f"module 'genfield.dataset' has no attribute {name!r}")
+__getattr__ = lazy_getattr(__name__, _PUBLIC)

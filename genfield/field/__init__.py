@@ -6,8 +6,7 @@ importable without torch, and importing it imports this package first.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from genfield.lazy import lazy_getattr
 
 _PUBLIC: dict[str, str] = {
     "load_model": "genfield.field.model",
@@ -17,7 +16,4 @@ _PUBLIC: dict[str, str] = {
 __all__ = list(_PUBLIC)
 
 
-def __getattr__(name: str) -> Any:
-    if name in _PUBLIC:
-        return getattr(importlib.import_module(_PUBLIC[name]), name)
-    raise AttributeError(f"module 'genfield.field' has no attribute {name!r}")
+__getattr__ = lazy_getattr(__name__, _PUBLIC)

@@ -6,8 +6,7 @@ package uses) does not pull in torch.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from genfield.lazy import lazy_getattr
 
 # public name -> module that defines it
 _PUBLIC: dict[str, str] = {
@@ -21,7 +20,4 @@ _PUBLIC: dict[str, str] = {
 __all__ = list(_PUBLIC)
 
 
-def __getattr__(name: str) -> Any:
-    if name in _PUBLIC:
-        return getattr(importlib.import_module(_PUBLIC[name]), name)
-    raise AttributeError(f"module 'genfield.render' has no attribute {name!r}")
+__getattr__ = lazy_getattr(__name__, _PUBLIC)
