@@ -57,6 +57,7 @@ class NetworkConfig:
     feature_dim: int = _num(16, 1, 256)  # geometry feature handed to the colour head
     colour_width: int = _num(64, 4, 1024)  # hidden units of each colour layer
     colour_depth: int = _num(2, 1, 16)  # hidden layers of the colour head
+    colour_waves: int = _num(16, 0, 256)  # code-steered plane waves fed to the colour head
 
 
 @dataclass(frozen=True)
