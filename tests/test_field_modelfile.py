@@ -148,3 +148,31 @@ def test_cli_reports_a_bad_model_in_one_line(tmp_path):
     assert proc.returncode == 2
     lines = proc.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("genfield: error: ") and str(bad) in lines[0]
+
+
+def test_a_file_from_before_colour_waves_loads_as_a_network_without_them(tmp_path):
+    # Files written before NetworkConfig.colour_waves existed have no such key and no
+    # net.waves.* tensors; they must keep loading and answering as they did.
+    import dataclasses
+
+    from genfield.field.modelfile import write_model_file
+    from genfield.field.network import FieldNetwork
+
+    torch.set_num_threads(1)
+    model, _ = tiny_model(steps=12)
+    net_cfg = dataclasses.replace(model.config.network, colour_waves=0)
+    cfg = dataclasses.replace(model.config, network=net_cfg)
+    torch.manual_seed(0)
+    old = dataclasses.replace(model, config=cfg, network=FieldNetwork(net_cfg))
+    stored = cfg.to_dict()
+    del stored["network"]["colour_waves"]
+    assert not any(k.startswith("net.waves") for k in old.tensors())
+    write_model_file(tmp_path / "old.gfm", old.tensors(), {
+        "config": stored, "names": list(old.codebook.names), "families": list(old.codebook.families),
+        "sources": list(old.sources), "prior": old.prior_info, "metrics": {}})
+    back = load_model(tmp_path / "old.gfm")
+    assert back.config.network.colour_waves == 0 and back.network.waves is None
+    pts = np.random.default_rng(2).uniform(-1, 1, (200, 3)).astype(np.float32)
+    s, a = old.codes(old.codebook.names[0])
+    for x, y in zip(old.query(pts, s, a), back.query(pts, s, a), strict=True):
+        assert np.array_equal(x, y)

@@ -210,8 +210,12 @@ def load_model(path: str | os.PathLike) -> Model:
     where = str(path)
     contents = read_model_file(path)
     meta = contents.meta
+    stored = meta["config"]
+    if isinstance(stored, dict) and isinstance(stored.get("network"), dict):
+        # written before the colour head had waves: its network has none
+        stored = {**stored, "network": {"colour_waves": 0, **stored["network"]}}
     try:
-        cfg = config_from_dict(meta["config"], where=f"{where} (stored config)")
+        cfg = config_from_dict(stored, where=f"{where} (stored config)")
     except ConfigError as err:
         raise ModelFileError(f"stored config is not valid: {err.message}", where=where) from None
     book = codebook_from_contents(contents.tensors, meta["names"], meta["families"], where)

@@ -103,11 +103,14 @@ class FieldNetwork(nn.Module):
             + [nn.Linear(cfg.width, cfg.width) for _ in range(cfg.depth - 1)]
         )
         self.geometry_out = nn.Linear(cfg.width, 1 + cfg.feature_dim)
-        self.waves = nn.Linear(cfg.appearance_dim, 4 * cfg.colour_waves)  # (k, phase) per wave
-        with torch.no_grad():  # shared directions and frequencies up to ~8 cycles per unit
-            self.waves.weight.mul_(0.1)
-            self.waves.bias.copy_(torch.cat([torch.randn(cfg.colour_waves, 3) * 15.0,
-                                             torch.rand(cfg.colour_waves, 1) * 2 * math.pi], 1).ravel())
+        self.waves = None  # (k, phase) of each wave from z_a; none in files written before them
+        if cfg.colour_waves:
+            self.waves = nn.Linear(cfg.appearance_dim, 4 * cfg.colour_waves)
+            with torch.no_grad():  # shared directions and frequencies up to ~8 cycles per unit
+                self.waves.weight.mul_(0.1)
+                self.waves.bias.copy_(torch.cat([torch.randn(cfg.colour_waves, 3) * 15.0,
+                                                 torch.rand(cfg.colour_waves, 1) * 2 * math.pi],
+                                                1).ravel())
         self.colour = nn.ModuleList(
             [nn.Linear(self.feature_width + cfg.colour_waves + cfg.appearance_dim, cfg.colour_width)]
             + [nn.Linear(cfg.colour_width, cfg.colour_width) for _ in range(cfg.colour_depth - 1)]
