@@ -115,7 +115,7 @@ def _peak_rss_mib(folder: Path, name: str, count: int) -> float:
 @case("dataset_render", "genfield render of a 5-object 128x128 recipe: images/s per worker "
       "with 1 and 2 workers, peak memory at two image counts")
 def _dataset_render(quick: bool) -> list[Figure]:
-    n = 24 if quick else 60
+    n = 24 if quick else 240  # 60 gave scalings of 1.04 and 2.12 in two runs: too short
     small, large = (30, 300) if quick else (100, 1000)
     with tempfile.TemporaryDirectory(prefix="genfield-bench-") as tmp:
         folder = Path(tmp)
