@@ -3,7 +3,7 @@
 A dense 64^3 bake runs the geometry trunk at 262,144 points; almost all of them are deep
 inside or far outside the object, where the occupancy is 0 or 1 and a trilinear guess is as
 good as the network. So the grid is evaluated level by level on nested lattices (every
-``s``-th grid point, ``s`` = e.g. 4 then 1): the coarsest lattice everywhere; a finer one only in
+``s``-th grid point, ``s`` = 4, 2, then 1): the coarsest lattice everywhere; a finer one only in
 the cells of the coarser one whose exactly known points do not agree confidently on
 inside/outside (|logit| < margin, or mixed signs), traced from cell to cell across faces
 (the idea of MISE, Mescheder et al. 2019, section 3.3, with tracing in place of neighbour
@@ -28,7 +28,10 @@ from scipy import ndimage
 # grid indices (m, 3) int64 into the R^3 grid -> (logits (m,), albedo (m, 3)), numpy float32
 GridFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
 
-DEFAULT_STEPS = (4, 1)  # lattice strides, coarse to fine; each divides the one before
+# lattice strides, coarse to fine; each divides the one before. (4, 2, 1) against (4, 1) on
+# prior draws of the quick model: 20-25% less time at 25^3, 33^3 and 49^3, inside sets equal
+# to a dense bake's (IoU 1.0000 worst of 8 codes); a first stride of 8 missed whole parts at 33^3.
+DEFAULT_STEPS = (4, 2, 1)
 DEFAULT_MARGIN = 5.0  # |logit| beyond which a cell whose corners agree is not refined (occupancy 0.7%)
 
 

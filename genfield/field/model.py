@@ -176,14 +176,16 @@ class Model:
 
     @property
     def identity(self) -> str:
-        """SHA-256 of the network's config and weights: what a bake depends on besides the
-        codes (the renderer keys its disk cache of baked grids by it). Recomputed on every
+        """SHA-256 of the network's config and weights and of the bake's refinement settings:
+        what a bake depends on besides the codes (the renderer keys its disk cache of baked
+        grids by it). Recomputed on every
         call (about a millisecond), so it follows any change of the weights."""
         import hashlib
         import json
 
         h = hashlib.sha256(json.dumps(self.config.to_dict()["network"], sort_keys=True).encode())
         h.update(json.dumps(self.config.prior.clean_fraction).encode())
+        h.update(json.dumps([DEFAULT_STEPS, DEFAULT_MARGIN]).encode())  # how a bake refines
         for name, value in sorted(self.network.state_dict().items()):
             h.update(name.encode())
             h.update(value.detach().numpy().tobytes())
