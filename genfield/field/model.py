@@ -178,8 +178,8 @@ class Model:
     def identity(self) -> str:
         """SHA-256 of the network's config and weights and of the bake's refinement settings:
         what a bake depends on besides the codes (the renderer keys its disk cache of baked
-        grids by it). Recomputed on every
-        call (about a millisecond), so it follows any change of the weights."""
+        grids by it). Recomputed on every call (about a millisecond), so it follows any
+        change of the weights."""
         import hashlib
         import json
 

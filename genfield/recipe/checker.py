@@ -233,7 +233,7 @@ class Checker:
             outputs = frozenset(self.lower.static(self.lower.fit(e, slot, "outputs"))
                                 for e in g.settings["outputs"].values)
         return DatasetSpec(int(self._fixed(g, "images", 100)), int(self._fixed(g, "seed", 0)),
-                           splits, outputs, float(self._fixed(g, "detail", 2.0)))
+                           splits, outputs, float(self._fixed(g, "detail", DatasetSpec.detail)))
 
     def _camera(self, g: _Block) -> CameraSpec:
         self._exclusive(g, ("fov",), ("focal",), "give one of them")

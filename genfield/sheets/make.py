@@ -16,6 +16,7 @@ from typing import Any
 import numpy as np
 from tqdm import tqdm
 
+from genfield.render.options import RenderOptions
 from genfield.render.output import RenderOutput
 from genfield.scene import Scene
 from genfield.sheets.layout import Sheet, contact_sheet, grid_sheet, save_png
@@ -24,14 +25,13 @@ from genfield.sheets.studio import LatentPlan, named_code, studio_scene
 
 
 def render_all(model: Any, scenes: Sequence[Scene], what: str,
-               detail: float = 2.0) -> list[RenderOutput]:
+               detail: float = RenderOptions.cells_per_pixel) -> list[RenderOutput]:
     """Render every scene with ``genfield.render.render_scene``, showing progress.
 
     Sheets show visible masks only, so the amodal masks (one more pass per object) are skipped.
     ``detail``: grid cells per pixel, as a recipe's dataset sets it (so a preview looks like
     the dataset).
     """
-    from genfield.render.options import RenderOptions
     from genfield.render.renderer import render_scene
 
     options = RenderOptions(amodal=False, cells_per_pixel=detail)
