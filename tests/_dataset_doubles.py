@@ -185,7 +185,7 @@ def tiny_model_file(path, names=("cup-0000", "washer-0000")):
     from genfield.field.model import Model
     from genfield.field.network import FieldNetwork
 
-    net_cfg = NetworkConfig(shape_dim=4, appearance_dim=3, octaves=2, width=16, depth=2,
+    net_cfg = NetworkConfig(shape_dim=4, appearance_dim=7, octaves=2, width=16, depth=2,
                             feature_dim=4, colour_width=8)
     network = FieldNetwork(net_cfg)
     g = np.random.default_rng(0)

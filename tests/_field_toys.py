@@ -102,7 +102,7 @@ def tiny_config(steps: int = 150, **training):
     return config_from_dict({
         "seed": 3, "threads": 1,
         "sources": {"families": {"sphere": 1, "box": 1, "torus": 1}},
-        "network": {"shape_dim": 8, "appearance_dim": 4, "octaves": 4, "width": 48, "depth": 3,
+        "network": {"shape_dim": 8, "appearance_dim": 8, "octaves": 4, "width": 48, "depth": 3,
                     "feature_dim": 8, "colour_width": 16},
         "training": {"steps": steps, "assets_per_step": 3, "points_per_asset": 512,
                      "surface_points_per_asset": 128, "lr_network": 3e-3, "lr_codes": 3e-2,

@@ -18,7 +18,7 @@ families = { washer = 1, bushing = 1 }
 samples_per_asset = 6000
 [network]
 shape_dim = 6
-appearance_dim = 3
+appearance_dim = 7
 octaves = 3
 width = 32
 depth = 2
@@ -74,7 +74,7 @@ def test_inspect_shows_codes_sources_prior_and_metrics(trained):
         assert piece in text.stdout, piece
     info = json.loads(_cli("inspect", str(out), "--json", env=env).stdout)
     assert [c["name"] for c in info["codes"]] == ["washer-0000", "bushing-0000"]
-    assert len(info["codes"][0]["shape"]) == 6 and len(info["codes"][0]["appearance"]) == 3
+    assert len(info["codes"][0]["shape"]) == 6 and len(info["codes"][0]["appearance"]) == 7
     assert info["config"]["training"]["steps"] == 30
     assert info["sizes"]["network_parameters"] > 0
     assert info["metrics"]["fit"]["per_asset"].keys() == {"washer-0000", "bushing-0000"}

@@ -36,7 +36,7 @@ def test_positional_encoding_is_nerf_eq_4():
 
 def test_split_first_layer_equals_the_concatenated_input():
     torch.manual_seed(0)
-    cfg = NetworkConfig(shape_dim=5, appearance_dim=3, octaves=2, width=16, depth=2, feature_dim=4,
+    cfg = NetworkConfig(shape_dim=5, appearance_dim=7, octaves=2, width=16, depth=2, feature_dim=4,
                         colour_width=8)
     net = FieldNetwork(cfg)
     x = torch.rand(2, 7, 3) * 2 - 1
@@ -56,12 +56,13 @@ def test_split_first_layer_equals_the_concatenated_input():
 def test_grid_tables_give_the_network_function_at_grid_points():
     # the fast path of bakes (per-axis tables of the first layers) against geometry + albedo
     torch.manual_seed(1)
-    cfg = NetworkConfig(shape_dim=5, appearance_dim=3, octaves=3, width=16, depth=3, feature_dim=4,
+    cfg = NetworkConfig(shape_dim=5, appearance_dim=7, octaves=3, width=16, depth=3, feature_dim=4,
                         colour_width=8, colour_depth=2)
     net = FieldNetwork(cfg)
     axis = torch.linspace(-1, 1, 9)
     ijk = torch.tensor([[0, 0, 0], [8, 3, 5], [4, 4, 4], [1, 7, 2]])
-    z_s, z_a = torch.randn(1, 5), torch.randn(1, 3)
+    z_s, z_a = torch.randn(1, 5), torch.randn(1, 7)
+    z_a[0, :3] *= 20.0  # the own wave: a few cycles per unit, as spectra give
     with torch.no_grad():
         logit, albedo = net.grid_forward(net.grid_tables(axis), ijk, z_s, z_a)
         x = axis[ijk][None]  # (1, 4, 3) the grid points themselves

@@ -9,7 +9,7 @@ import pytest
 from genfield.field.codebook import CodeBook
 from genfield.field.genmetrics import generative_scores, scores_from_distances
 from genfield.field.grid import grid_points
-from genfield.field.prior import fit_prior, ledoit_wolf, validity, with_prior
+from genfield.field.prior import _ledoit_wolf_identity, fit_prior, ledoit_wolf, validity, with_prior
 
 
 def _ledoit_wolf_shrinkage_reference(x: np.ndarray) -> float:
@@ -33,7 +33,7 @@ def _ledoit_wolf_shrinkage_reference(x: np.ndarray) -> float:
 def test_ledoit_wolf_agrees_with_the_sklearn_algebra(n, d):
     g = np.random.default_rng(n)
     x = g.normal(size=(n, d)) @ g.normal(size=(d, d)) * 0.1
-    cov, a = ledoit_wolf(x)
+    cov, a = _ledoit_wolf_identity(x)
     assert a == pytest.approx(_ledoit_wolf_shrinkage_reference(x), rel=1e-9, abs=1e-12)
     s = np.cov(x, rowvar=False, bias=True)
     m = np.trace(s) / d
@@ -41,10 +41,23 @@ def test_ledoit_wolf_agrees_with_the_sklearn_algebra(n, d):
     assert np.all(np.linalg.eigvalsh(cov) > 0)  # well conditioned even when n < d
 
 
+def test_ledoit_wolf_keeps_each_entry_s_own_variance_and_scales_with_it():
+    # the diagonal target (Schaefer and Strimmer 2005, target D): the shrunk diagonal is the
+    # sample variance, and rescaling entries rescales the estimate the same way
+    g = np.random.default_rng(3)
+    x = g.normal(size=(8, 12)) @ g.normal(size=(12, 12))
+    scale = np.r_[np.full(4, 40.0), np.full(8, 0.1)]  # radians beside small code entries
+    cov, a = ledoit_wolf(x * scale)
+    assert 0.0 < a < 1.0
+    assert np.allclose(np.diag(cov), (x * scale).var(axis=0))
+    assert np.allclose(cov, ledoit_wolf(x)[0] * np.outer(scale, scale))
+
+
 def test_shrinkage_falls_as_samples_grow():
     g = np.random.default_rng(0)
     a_small = ledoit_wolf(g.normal(size=(10, 20)))[1]
-    a_large = ledoit_wolf(g.normal(size=(5000, 20)) * [1 + i for i in range(20)])[1]
+    mixing = g.normal(size=(20, 20))  # correlated entries: the diagonal target is far off
+    a_large = ledoit_wolf(g.normal(size=(5000, 20)) @ mixing)[1]
     assert a_small > 0.3 and a_large < 0.05
 
 

@@ -20,7 +20,7 @@ from genfield.field.pipeline import train
 TINY = {
     "seed": 5, "threads": 1,
     "sources": {"families": {"washer": 1, "hex_nut": 1}, "samples_per_asset": 6000},
-    "network": {"shape_dim": 6, "appearance_dim": 3, "octaves": 3, "width": 32, "depth": 2,
+    "network": {"shape_dim": 6, "appearance_dim": 7, "octaves": 3, "width": 32, "depth": 2,
                 "feature_dim": 4, "colour_width": 8},
     "training": {"steps": 40, "assets_per_step": 2, "points_per_asset": 256,
                  "surface_points_per_asset": 64, "warmup_steps": 5, "lr_network": 3e-3,

@@ -33,7 +33,7 @@ def model_file(tmp_path_factory):
     cfg = TrainConfig(sources=SourcesConfig(families={"cup": 1, "washer": 2}),
                       network=NetworkConfig(shape_dim=1, appearance_dim=3, octaves=0, width=6,
                                             depth=1, feature_dim=1, colour_width=4,
-                                            colour_depth=1))
+                                            colour_depth=1, colour_harmonics=0))
     net = FieldNetwork(cfg.network)
     with torch.no_grad():
         for p in net.parameters():

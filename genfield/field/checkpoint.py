@@ -36,14 +36,19 @@ class TrainState:
     elapsed: float = 0.0  # seconds of training so far (for the wall-clock budget)
 
 
-def new_state(cfg: TrainConfig, assets: int) -> TrainState:
+def new_state(cfg: TrainConfig, assets: int, waves: np.ndarray | None = None) -> TrainState:
     """Fresh weights (torch's default init) and codes drawn from N(0, CODE_INIT_STD^2),
-    seeded by ``cfg.seed`` without touching torch's global generator."""
+    seeded by ``cfg.seed`` without touching torch's global generator.
+
+    ``waves`` (assets, 4): each asset's own colour wave (``genfield.field.spectrum``), the
+    start of the first appearance-code entries when the network has own waves."""
     with torch.random.fork_rng(devices=[]):
         torch.manual_seed(cfg.seed)
         net = FieldNetwork(cfg.network)
         shape = torch.randn(assets, cfg.network.shape_dim) * CODE_INIT_STD
         appearance = torch.randn(assets, cfg.network.appearance_dim) * CODE_INIT_STD
+    if net.leading_entries and waves is not None:
+        appearance[:, : net.leading_entries] = torch.from_numpy(np.asarray(waves, np.float32))
     shape_p, app_p = torch.nn.Parameter(shape), torch.nn.Parameter(appearance)
     t = cfg.training
     opt = torch.optim.Adam([

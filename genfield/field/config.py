@@ -50,7 +50,8 @@ class NetworkConfig:
     """Sizes of the codes and the network (see DEVELOPERS.md, "The field")."""
 
     shape_dim: int = _num(32, 1, 512)  # length Ds of a shape code
-    appearance_dim: int = _num(16, 1, 512)  # length Da of an appearance code
+    appearance_dim: int = _num(20, 1, 512)  # length Da of an appearance code (the first 4
+    # entries are the asset's own colour wave when colour_harmonics > 0)
     octaves: int = _num(6, 0, 12)  # frequencies 2^0 .. 2^(L-1) of the positional encoding
     width: int = _num(128, 4, 1024)  # hidden units of each geometry layer
     depth: int = _num(4, 1, 16)  # hidden layers of the geometry trunk
@@ -58,6 +59,7 @@ class NetworkConfig:
     colour_width: int = _num(64, 4, 1024)  # hidden units of each colour layer
     colour_depth: int = _num(2, 1, 16)  # hidden layers of the colour head
     colour_waves: int = _num(16, 0, 256)  # code-steered plane waves fed to the colour head
+    colour_harmonics: int = _num(4, 0, 16)  # harmonics of each asset's own wave (0: no own wave)
 
 
 @dataclass(frozen=True)
@@ -273,6 +275,11 @@ def _check_whole(cfg: TrainConfig, where: str, locate: _KeyLines | None) -> None
         raise _error("no training sources: give built-in families or mesh files",
                      ("sources",), where, locate,
                      hint='e.g. [sources] families = { washer = 8 }')
+    n = cfg.network
+    if n.colour_harmonics and n.appearance_dim <= 4:
+        raise _error(f"must be > 4 when network.colour_harmonics > 0 (the first 4 entries hold "
+                     f"each asset's own colour wave), got {n.appearance_dim}",
+                     ("network", "appearance_dim"), where, locate)
     t = cfg.training
     if t.warmup_steps >= t.steps:
         raise _error(f"must be smaller than training.steps ({t.steps}), got {t.warmup_steps}",

@@ -4,7 +4,9 @@ DeepSDF (Park et al. 2019, eq. 10) infers the code of an unseen shape by minimis
 training loss over the code alone, with the network fixed; here the same three loss terms
 as training (``genfield.field.trainer.loss_terms``) are minimised over one (shape,
 appearance) pair by Adam. The start is the training code that explains the new samples best
-(lowest occupancy loss on a few thousand of them), which avoids poor local minima from zero.
+(lowest occupancy loss on a few thousand of them), which avoids poor local minima from zero;
+the appearance code's own wave starts at the new asset's colour spectrum's peak, as in training
+(``genfield.field.spectrum``).
 """
 
 from __future__ import annotations
@@ -25,6 +27,7 @@ from genfield.field.data import TrainingData
 from genfield.field.evaluate import iou, truth_grid
 from genfield.field.grid import SIGMA_MAX
 from genfield.field.model import Model
+from genfield.field.spectrum import leading_wave
 from genfield.field.trainer import loss_terms
 
 log = logging.getLogger(__name__)
@@ -86,7 +89,11 @@ def _optimise(model: Model, asset, settings: FitSettings, truth, data: TrainingD
     from tqdm import tqdm
 
     shape = torch.nn.Parameter(torch.from_numpy(model.codebook.shape[row].copy())[None])
-    appearance = torch.nn.Parameter(torch.from_numpy(model.codebook.appearance[row].copy())[None])
+    start = model.codebook.appearance[row].copy()
+    lead = model.network.leading_entries
+    if lead:
+        start[:lead] = leading_wave(data.surface_points[0].numpy(), data.surface_colour[0].numpy())
+    appearance = torch.nn.Parameter(torch.from_numpy(start)[None])
     opt = torch.optim.Adam([shape, appearance], lr=settings.lr)
     state = TrainState(network=model.network, shape_codes=shape, appearance_codes=appearance,
                        optimiser=opt)

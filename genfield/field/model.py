@@ -214,8 +214,9 @@ def load_model(path: str | os.PathLike) -> Model:
     meta = contents.meta
     stored = meta["config"]
     if isinstance(stored, dict) and isinstance(stored.get("network"), dict):
-        # written before the colour head had waves: its network has none
-        stored = {**stored, "network": {"colour_waves": 0, **stored["network"]}}
+        # written before the colour head had waves or own waves: its network has none
+        stored = {**stored, "network": {"colour_waves": 0, "colour_harmonics": 0,
+                                        **stored["network"]}}
     try:
         cfg = config_from_dict(stored, where=f"{where} (stored config)")
     except ConfigError as err:

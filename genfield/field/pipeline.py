@@ -23,6 +23,7 @@ from genfield.field.data import TrainingData
 from genfield.field.evaluate import score_asset, summarise
 from genfield.field.model import Model
 from genfield.field.prior import with_prior
+from genfield.field.spectrum import leading_waves
 from genfield.field.trainer import run_training
 
 log = logging.getLogger(__name__)
@@ -133,7 +134,11 @@ def _train(cfg: TrainConfig, base_dir: Path, out: Path, resume: Path | None, pro
     held = cfg.evaluation.surface_points
     data = TrainingData(truths, held_out_surface=held)
     names = [a.name for a in sources.assets]
-    state = load_checkpoint(resume, cfg, names) if resume else new_state(cfg, len(names))
+    if resume:
+        state = load_checkpoint(resume, cfg, names)
+    else:
+        waves = leading_waves(data.surface_points.numpy(), data.surface_colour.numpy())
+        state = new_state(cfg, len(names), waves)
     checkpoint = out.with_name(out.name + ".ckpt")
     preview = out.with_name(out.stem + ".preview.png")
 

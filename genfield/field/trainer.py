@@ -4,8 +4,11 @@ Loss of one step over a batch of B assets (DEVELOPERS.md, "Training"):
 
     L = mean_BCE(logit(x, z_s + e_s), o)                 occupancy, cross-entropy with logits
       + w_c * mean |albedo(f(x_s, z_s + e_s), z_a + e_a) - c|   colour L1 at surface samples
-      + lambda * mean(|z_s|^2 + |z_a|^2)                  zero-mean Gaussian code prior,
-                                                          DeepSDF eq. 9 (Park et al. 2019)
+      + lambda * mean(|z_s|^2 + |z_r|^2)                  zero-mean Gaussian code prior,
+                                                          DeepSDF eq. 9 (Park et al. 2019);
+                                                          z_r: the appearance code after the
+                                                          asset's own wave, which is a
+                                                          frequency, not a draw around zero
 
 with e ~ N(0, code_noise^2) fresh each step (0 by default): noise on the codes makes the
 decoder answer sensibly for a neighbourhood of every code, as a variational auto-decoder
@@ -48,7 +51,8 @@ def loss_terms(state: TrainState, batch: Batch, cfg: TrainConfig) -> dict[str, t
     """The three loss terms of one batch (see the module docstring)."""
     zs = state.shape_codes[batch.assets]  # (B, Ds)
     za = state.appearance_codes[batch.assets]  # (B, Da)
-    code = zs.square().sum(1).mean() + za.square().sum(1).mean()
+    rest = za[:, state.network.leading_entries :]
+    code = zs.square().sum(1).mean() + rest.square().sum(1).mean()
     if batch.code_noise is not None:  # the decoder must answer for a neighbourhood of each code
         zs = zs + batch.code_noise[:, : zs.shape[1]]
         za = za + batch.code_noise[:, zs.shape[1] :]
