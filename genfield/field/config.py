@@ -275,10 +275,12 @@ def _check_whole(cfg: TrainConfig, where: str, locate: _KeyLines | None) -> None
         raise _error("no training sources: give built-in families or mesh files",
                      ("sources",), where, locate,
                      hint='e.g. [sources] families = { washer = 8 }')
+    from genfield.field.spectrum import WAVE_ENTRIES  # here: config loads without numpy
+
     n = cfg.network
-    if n.colour_harmonics and n.appearance_dim <= 4:
-        raise _error(f"must be > 4 when network.colour_harmonics > 0 (the first 4 entries hold "
-                     f"each asset's own colour wave), got {n.appearance_dim}",
+    if n.colour_harmonics and n.appearance_dim <= WAVE_ENTRIES:
+        raise _error(f"must be > {WAVE_ENTRIES} when network.colour_harmonics > 0 (the first "
+                     f"{WAVE_ENTRIES} entries hold each asset's own colour wave), got {n.appearance_dim}",
                      ("network", "appearance_dim"), where, locate)
     t = cfg.training
     if t.warmup_steps >= t.steps:

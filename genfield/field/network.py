@@ -144,6 +144,10 @@ class FieldNetwork(nn.Module):
         """Length of z_r, the appearance code after the own wave."""
         return self.cfg.appearance_dim - self.leading_entries
 
+    def rest_of(self, appearance: torch.Tensor) -> torch.Tensor:
+        """z_r of codes (B, Da): what the code penalty, the steered waves and V_0 read."""
+        return appearance[:, self.leading_entries :]
+
     @property
     def feature_width(self) -> int:
         """Width of the geometry feature f = [t; gamma(x)]: F + 3 + 6 L."""
@@ -172,7 +176,7 @@ class FieldNetwork(nn.Module):
         fixed octaves of gamma(x) compose one only with many units per asset. Here the
         appearance code steers K plane waves (direction, frequency and phase are linear in
         it), so a pattern needs a wave or two and a threshold."""
-        w = self.waves(appearance[:, self.leading_entries :])  # (B, 4 K)
+        w = self.waves(self.rest_of(appearance))  # (B, 4 K)
         w = w.view(appearance.shape[0], -1, 4)  # (B, K, 4)
         return torch.sin(torch.einsum("bpc,bkc->bpk", x, w[..., :3]) + w[:, None, :, 3])
 
@@ -186,27 +190,25 @@ class FieldNetwork(nn.Module):
         return torch.cat([torch.sin(hp), torch.cos(hp)], dim=-1)
 
     def _pattern_part(self, x: torch.Tensor, appearance: torch.Tensor,
-                      weight: torch.Tensor) -> torch.Tensor | None:
+                      weight: torch.Tensor) -> torch.Tensor:
         """The waves' and harmonics' share of the colour head's first layer, (B, P, Cw); the
-        columns of ``weight`` are [w(x); u(x)]."""
+        columns of ``weight`` are [w(x); u(x)] (the network has at least one of them)."""
         parts = []
         if self.cfg.colour_waves:
             parts.append(self.wave_features(x, appearance))
         if self.cfg.colour_harmonics:
             parts.append(self.harmonic_features(x, appearance))
-        return F.linear(torch.cat(parts, dim=-1), weight) if parts else None
+        return F.linear(torch.cat(parts, dim=-1), weight)
 
     def albedo(self, feature: torch.Tensor, appearance: torch.Tensor) -> torch.Tensor:
         """Linear albedo (B, P, 3) in [0, 1] from features (B, P, F + E) and codes (B, Da)."""
         f, k = self.feature_width, self.cfg.colour_waves + 2 * self.cfg.colour_harmonics
         first = self.colour[0]
-        rest = appearance[:, self.leading_entries :]  # z_r
-        code_part = F.linear(rest, first.weight[:, f + k :], first.bias)  # (B, Cw)
+        code_part = F.linear(self.rest_of(appearance), first.weight[:, f + k :], first.bias)  # (B, Cw)
         h = F.linear(feature, first.weight[:, :f]) + code_part[:, None, :]  # (B, P, Cw)
-        x = feature[..., self.cfg.feature_dim : self.cfg.feature_dim + 3]  # gamma(x) starts with x
-        pattern = self._pattern_part(x, appearance, first.weight[:, f : f + k])
-        if pattern is not None:
-            h = h + pattern
+        if k:
+            x = feature[..., self.cfg.feature_dim : self.cfg.feature_dim + 3]  # gamma(x) starts with x
+            h = h + self._pattern_part(x, appearance, first.weight[:, f : f + k])
         h = torch.relu_(h)
         for layer in self.colour[1:]:
             h = torch.relu_(layer(h))  # (B, P, Cw)
@@ -247,8 +249,7 @@ class FieldNetwork(nn.Module):
         g += tables.colour_xy[i, j]
         g += tables.colour_z[k]
         waves = self.cfg.colour_waves + 2 * self.cfg.colour_harmonics
-        rest = appearance[:, self.leading_entries :]
-        g += F.linear(rest, c_first.weight[:, f + e + waves :], c_first.bias)
+        g += F.linear(self.rest_of(appearance), c_first.weight[:, f + e + waves :], c_first.bias)
         if waves:
             x = torch.stack([tables.axis[i], tables.axis[j], tables.axis[k]], 1)[None]  # (1, m, 3)
             g += self._pattern_part(x, appearance, c_first.weight[:, f + e : f + e + waves])[0]

@@ -13,9 +13,9 @@ well-conditioned estimator for large-dimensional covariance matrices", J. Multiv
 Analysis 88, eq. 14 and Lemmas 3.2-3.4): with n codes in d dimensions, n is often below d,
 so the sample covariance S is singular; S* = a m I + (1 - a) S with m = tr(S) / d and the
 shrinkage a = min(b^2, d^2) / d^2 estimated from the data, applied to standardised codes
-(``ledoit_wolf``): without that, an own colour wave (entries of tens of radians per unit)
-set m for all entries, and draws' shape codes strayed (42% valid, measured). A family with fewer than three
-codes borrows the pooled within-family covariance (``_fallback``).
+(``ledoit_wolf``): without that, an own colour wave (entries of tens of radians per unit) set
+m for all entries, and draws' shape codes strayed (42% valid, measured). A family with fewer
+than three codes borrows the pooled within-family covariance (``_fallback``).
 
 Validity of a sample (issue 5): after removing floating parts below a volume fraction
 (``genfield.field.bake.clean_occupancy``), the shape is non-empty, is one part, and keeps

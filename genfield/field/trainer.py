@@ -51,8 +51,7 @@ def loss_terms(state: TrainState, batch: Batch, cfg: TrainConfig) -> dict[str, t
     """The three loss terms of one batch (see the module docstring)."""
     zs = state.shape_codes[batch.assets]  # (B, Ds)
     za = state.appearance_codes[batch.assets]  # (B, Da)
-    rest = za[:, state.network.leading_entries :]
-    code = zs.square().sum(1).mean() + rest.square().sum(1).mean()
+    code = zs.square().sum(1).mean() + state.network.rest_of(za).square().sum(1).mean()
     if batch.code_noise is not None:  # the decoder must answer for a neighbourhood of each code
         zs = zs + batch.code_noise[:, : zs.shape[1]]
         za = za + batch.code_noise[:, zs.shape[1] :]
