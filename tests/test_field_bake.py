@@ -6,6 +6,7 @@ import numpy as np
 import pytest
 import torch
 from _field_toys import tiny_model
+from scipy import ndimage
 
 from genfield.field.bake import (
     bake_arrays,
@@ -13,7 +14,7 @@ from genfield.field.bake import (
     lattice_indices,
     upsample,
 )
-from genfield.field.grid import SIGMA_MAX, grid_points
+from genfield.field.grid import SIGMA_MAX, box_filter, grid_points
 
 
 @pytest.fixture(scope="module")
@@ -93,3 +94,17 @@ def test_cleanup_drops_small_parts_and_keeps_large_ones():
     assert parts == 2 and np.array_equal(kept, occ)
     empty, parts = clean_occupancy(np.zeros((5, 5, 5), np.float32), 0.02)
     assert parts == 0 and not empty.any()
+
+
+@pytest.mark.parametrize("radius", [1, 2])
+def test_box_filter_is_scipys_binary_morphology(radius):
+    # reference: scipy.ndimage binary_dilation / binary_erosion (border_value=0) by the 3^3
+    # box, iterated; sparse and dense masks, a non-cubic shape so no axis is confused
+    rng = np.random.default_rng(3)
+    ball = np.ones((3, 3, 3), bool)
+    for density in (0.01, 0.8):
+        mask = rng.random((9, 12, 15)) < density
+        assert np.array_equal(box_filter(mask, grow=True, radius=radius),
+                              ndimage.binary_dilation(mask, ball, iterations=radius))
+        assert np.array_equal(box_filter(mask, grow=False, radius=radius),
+                              ndimage.binary_erosion(mask, ball, iterations=radius, border_value=0))

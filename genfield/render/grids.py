@@ -33,9 +33,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import torch
-from scipy import ndimage
 
-from genfield.field.grid import SIGMA_MAX, FieldGrid
+from genfield.field.grid import SIGMA_MAX, FieldGrid, box_filter
 
 SHARPNESS = 8.0  # slope of the density ramp about o = 1/2 (module doc); the ramp is 1/8 as wide
 EMPTY_OCCUPANCY = 0.5 - 0.5 / SHARPNESS  # at or below: no density at all
@@ -86,10 +85,11 @@ class RenderGrid:
 
 
 def _corner_reduce(values: np.ndarray, reduce) -> np.ndarray:
-    """(R - 1)^3 reduction over the 8 corners of every cell of a (R, R, R) grid."""
-    r = values.shape[0] - 1
-    corners = [values[i : i + r, j : j + r, k : k + r] for i in (0, 1) for j in (0, 1) for k in (0, 1)]
-    return reduce.reduce(corners)
+    """(R - 1)^3 reduction (np.minimum, np.maximum) over the 8 corners of every cell of a
+    (R, R, R) grid, one axis at a time."""
+    values = reduce(values[:-1], values[1:])
+    values = reduce(values[:, :-1], values[:, 1:])
+    return reduce(values[:, :, :-1], values[:, :, 1:])
 
 
 def deep_radius(resolution: int) -> int:
@@ -103,14 +103,13 @@ def cell_states(density: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     empty = hi <= EMPTY_OCCUPANCY * SIGMA_MAX
     full = lo >= SOLID_OCCUPANCY * SIGMA_MAX
     n = deep_radius(density.shape[0])
-    # border_value=0: beyond the cube there is nothing, so cells near its faces are never deep
-    deep = ndimage.binary_erosion(full, np.ones((3, 3, 3), bool), iterations=n, border_value=0)
+    deep = box_filter(full, grow=False, radius=n)  # beyond the cube there is nothing: never deep
     fine = np.full(full.shape, MIXED, np.int8)
     fine[empty], fine[full], fine[deep] = EMPTY, FULL, DEEP
     c = -(-empty.shape[0] // STRIDE)  # coarse cells a side
     pad = c * STRIDE - empty.shape[0]
     blocks = np.pad(~empty, [(0, pad)] * 3).reshape(c, STRIDE, c, STRIDE, c, STRIDE)
-    coarse = ndimage.binary_dilation(blocks.any(axis=(1, 3, 5)), np.ones((3, 3, 3), bool))
+    coarse = box_filter(blocks.any(axis=(1, 3, 5)), grow=True)
     return fine.ravel(), coarse
 
 
