@@ -108,3 +108,20 @@ def test_box_filter_is_scipys_binary_morphology(radius):
                               ndimage.binary_dilation(mask, ball, iterations=radius))
         assert np.array_equal(box_filter(mask, grow=False, radius=radius),
                               ndimage.binary_erosion(mask, ball, iterations=radius, border_value=0))
+
+
+@pytest.mark.parametrize("resolution", [9, 24, 33])
+def test_cell_flags_match_the_closed_cell_definition(resolution):
+    # brute force: fine point p lies in coarse cell c iff coarse[c] <= fine[p] <= coarse[c + 1]
+    from genfield.field.bake import Cells, _any_in_cells, _points_in_cells
+
+    coarse, fine = lattice_indices(resolution, 4), lattice_indices(resolution, 2)
+    inside = (fine[:, None] >= coarse[None, :-1]) & (fine[:, None] <= coarse[None, 1:])  # (nf, nc)
+    layout = Cells.of(coarse, fine)
+    rng = np.random.default_rng(resolution)
+    flags = rng.random((len(fine),) * 3) < 0.05
+    cells = rng.random((len(coarse) - 1,) * 3) < 0.1
+    want_cells = np.einsum("ia,jb,kc,ijk->abc", inside, inside, inside, flags) > 0
+    want_points = np.einsum("ia,jb,kc,abc->ijk", inside, inside, inside, cells) > 0
+    assert np.array_equal(_any_in_cells(flags, layout), want_cells)
+    assert np.array_equal(_points_in_cells(cells, layout), want_points)

@@ -74,37 +74,47 @@ def upsample(values: np.ndarray, coarse: np.ndarray, fine: np.ndarray) -> np.nda
     return values
 
 
-def _membership(coarse: np.ndarray, fine: np.ndarray) -> np.ndarray:
-    """(n_fine, n_cells) float32: 1 where fine index a lies in the closed coarse cell c (a point
-    on a cell boundary belongs to both cells)."""
-    lo, hi = coarse[:-1], coarse[1:]
-    return ((fine[:, None] >= lo[None, :]) & (fine[:, None] <= hi[None, :])).astype(np.float32)
+@dataclass(frozen=True)
+class Cells:
+    """Where a coarse lattice's cells lie on a finer nested one, per axis: cell c is closed,
+    from fine position ``start[c]`` to ``start[c + 1]`` (a point on a boundary is in both);
+    ``left[p]`` and ``right[p]`` are the cells holding fine position p (equal inside a cell)."""
+
+    start: np.ndarray  # (nc + 1,) fine positions of the coarse indices
+    left: np.ndarray  # (nf,)
+    right: np.ndarray  # (nf,)
+
+    @staticmethod
+    def of(coarse: np.ndarray, fine: np.ndarray) -> Cells:
+        start = np.searchsorted(fine, coarse)  # coarse indices are members of fine
+        cells = len(coarse) - 1
+        right = np.clip(np.searchsorted(start, np.arange(len(fine)), side="right") - 1, 0, cells - 1)
+        left = np.where(np.isin(np.arange(len(fine)), start[1:-1]), right - 1, right)
+        return Cells(start, left, right)
 
 
-def _per_axis(values: np.ndarray, matrix: np.ndarray, axis: int) -> np.ndarray:
-    """Contract each axis of a cube with ``matrix`` in turn: three BLAS products, for what
-    the three-operand einsum would spend planning its path on every call."""
-    for _ in range(3):
-        values = np.tensordot(values, matrix, axes=([0], [axis]))  # the new axis goes last
-    return values
-
-
-def _any_in_cells(flags: np.ndarray, member: np.ndarray) -> np.ndarray:
+def _any_in_cells(flags: np.ndarray, cells: Cells) -> np.ndarray:
     """(nc, nc, nc) bool: closed coarse cells holding at least one flagged fine point."""
-    return _per_axis(flags.astype(np.float32), member, 0) > 0
+    out = flags
+    for axis in range(3):  # [start_c, start_c+1) by reduceat (the last runs to the end), then the far face
+        out = np.logical_or.reduceat(out, cells.start[:-1], axis=axis) | out.take(cells.start[1:], axis=axis)
+    return out
 
 
-def _points_in_cells(cells: np.ndarray, member: np.ndarray) -> np.ndarray:
+def _points_in_cells(flagged: np.ndarray, cells: Cells) -> np.ndarray:
     """(nf, nf, nf) bool: fine-lattice points on or inside a flagged coarse cell."""
-    return _per_axis(cells.astype(np.float32), member, 1) > 0
+    out = flagged
+    for axis in range(3):
+        out = out.take(cells.left, axis=axis) | out.take(cells.right, axis=axis)
+    return out
 
 
-def uncertain_cells(logits: np.ndarray, known: np.ndarray, member: np.ndarray,
+def uncertain_cells(logits: np.ndarray, known: np.ndarray, cells: Cells,
                     margin: float) -> np.ndarray:
     """Coarse cells whose exactly known points do not all agree confidently: not all above
     +margin and not all below -margin (mixed signs, or some point near the surface)."""
-    not_all_in = _any_in_cells(known & (logits < margin), member)
-    not_all_out = _any_in_cells(known & (logits > -margin), member)
+    not_all_in = _any_in_cells(known & (logits < margin), cells)
+    not_all_out = _any_in_cells(known & (logits > -margin), cells)
     return not_all_in & not_all_out
 
 
@@ -137,18 +147,18 @@ def bake_arrays(field: GridFn, resolution: int, *,
     evaluated, sizes = [evaluate(prev, known, logits, albedo)], [n**3]
     for stride in steps[1:]:
         idx = lattice_indices(resolution, stride)
-        member = _membership(prev, idx)
+        layout = Cells.of(prev, idx)
         logits, albedo = upsample(logits, prev, idx), upsample(albedo, prev, idx)
         known = _nested(known, prev, idx)
         done = np.zeros((len(prev) - 1,) * 3, bool)
         count = 0
-        cells = uncertain_cells(logits, known, member, margin)
+        cells = uncertain_cells(logits, known, layout, margin)
         while cells.any():
-            todo = _points_in_cells(cells, member) & ~known
+            todo = _points_in_cells(cells, layout) & ~known
             count += evaluate(idx, todo, logits, albedo)
             known |= todo
             done |= cells
-            cells = uncertain_cells(logits, known, member, margin) & ~done
+            cells = uncertain_cells(logits, known, layout, margin) & ~done
         evaluated.append(count)
         sizes.append(len(idx) ** 3)
         prev = idx
