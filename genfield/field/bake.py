@@ -94,10 +94,10 @@ class Cells:
 
 
 def _any_in_cells(flags: np.ndarray, cells: Cells) -> np.ndarray:
-    """(nc, nc, nc) bool: closed coarse cells holding at least one flagged fine point."""
+    """(nc, nc, nc): the bitwise or of each closed coarse cell's fine flags (bool or uint8)."""
     out = flags
     for axis in range(3):  # [start_c, start_c+1) by reduceat (the last runs to the end), then the far face
-        out = np.logical_or.reduceat(out, cells.start[:-1], axis=axis) | out.take(cells.start[1:], axis=axis)
+        out = np.bitwise_or.reduceat(out, cells.start[:-1], axis=axis) | out.take(cells.start[1:], axis=axis)
     return out
 
 
@@ -113,9 +113,9 @@ def uncertain_cells(logits: np.ndarray, known: np.ndarray, cells: Cells,
                     margin: float) -> np.ndarray:
     """Coarse cells whose exactly known points do not all agree confidently: not all above
     +margin and not all below -margin (mixed signs, or some point near the surface)."""
-    not_all_in = _any_in_cells(known & (logits < margin), cells)
-    not_all_out = _any_in_cells(known & (logits > -margin), cells)
-    return not_all_in & not_all_out
+    not_in = (known & (logits < margin)).view(np.uint8)  # bit 0: a known point not surely inside
+    not_out = (known & (logits > -margin)).view(np.uint8)  # bit 1: ... not surely outside
+    return _any_in_cells(not_in | (not_out << 1), cells) == 3  # one pass for both
 
 
 def bake_arrays(field: GridFn, resolution: int, *,
