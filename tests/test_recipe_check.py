@@ -203,3 +203,39 @@ def test_fixed_settings_may_come_from_constants(tmp_path):
     assert (r.dataset.count, r.dataset.seed, r.camera.width, r.light.shadows, r.layout.tries) == \
         (12, 3, 64, True, 2)
     assert r.classes == ("q",) and r.sweeps[0].index == 2 and r.model_path == tmp_path / "m.gfm"
+
+
+def test_codes_drawn_from_a_continuum_are_told_apart_from_picked_names(tmp_path):
+    from genfield.recipe.summary import describe
+
+    r = check('spin = 0deg..90deg per object\nw = 0..1 per object\nname = pick ["a", "b"]\n'
+              'object picked {\n  asset name\n  yaw spin\n}\n'
+              'object fixed_blend {\n  shape lerp ["a": 1, "b": 3]\n  appearance "a"\n}\n'
+              'object blend {\n  shape lerp ["a": w, "b": 1]\n  appearance "a"\n}\n'
+              'object painted {\n  asset "a" wearing prior\n}\n'
+              'object moved {\n  shape "a" shift dim 0 by -0.2..0.2\n  appearance name\n}\n',
+              tmp_path)
+    summary = describe(r)
+    line = next(x for x in summary.splitlines() if x.startswith("baked for every object"))
+    # names (even picked ones) and fixed blends repeat, so their grids are cached
+    assert line.split(": ", 1)[1].split(" (")[0] == "blend.shape, painted.asset, moved.shape"
+    alone = check('object a {\n  asset pick ["a", "b"]\n  yaw 0deg..90deg\n}\n', tmp_path)
+    assert "baked for every object" not in describe(alone)
+
+
+@pytest.mark.parametrize(
+    ("node", "continuous"),
+    [
+        (v.Uniform(0.0, 1.0), True),
+        (v.Uniform(1.0, 1.0), False),  # an empty range is one value
+        (v.Whole(2, 5), False),
+        (v.Pick((v.Fixed(0.01), v.Fixed(0.02)), (0.5, 0.5)), False),
+        (v.Pick((v.Fixed(0.01), v.Uniform(0.0, 1.0)), (0.5, 0.5)), True),
+        (v.Pick((v.Fixed(0.01), v.Uniform(0.0, 1.0)), (1.0, 0.0)), False),  # never drawn
+        (v.NamedCode(v.Pick((v.Fixed("a"), v.Fixed("b")), (0.5, 0.5))), False),
+        (v.PriorCode(v.Fixed(1.0)), True),
+        (v.ConstantRef("w"), True),
+    ],
+)
+def test_is_continuous(node, continuous):
+    assert v.is_continuous(node, {"w"}) is continuous

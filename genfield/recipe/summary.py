@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from genfield.recipe.spec import Recipe
-from genfield.recipe.values import is_random, show
+from genfield.recipe.values import is_continuous, is_random, show
 
 
 def kind_of(recipe: Recipe, name: str) -> str:
@@ -64,9 +64,29 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
                              if any(is_random(n, own) for n in nodes[k])]
     lines.append("random per image: " + ("; ".join(per_image) or "nothing"))
     lines.append("random per object: " + ("; ".join(per_object + per_object_codes) or "nothing"))
+    afresh = _codes_drawn_afresh(recipe)
+    if afresh:
+        lines.append(f"baked for every object of every image: {', '.join(afresh)} (drawn from a "
+                     "continuum, so never cached; at detail 2 a bake costs several cached images' "
+                     "renders, detail 1 bakes about 4x faster with rougher thin walls)")
     for s in recipe.sweeps:
         parts = ", ".join(f"{name} ({len(vals)} values)" for name, vals in s.params)
         shape = "zipped" if s.zipped else ("grid" if len(s.params) == 2 else "strip")
         lines.append(f"sweep {s.name}: {parts}, {shape}, scene {s.index}")
     lines.append(f"parameters: {len(recipe.params)} (see 'genfield sweep --vary NAME=VALUES')")
     return "\n".join(lines)
+
+
+def _codes_drawn_afresh(recipe: Recipe) -> list[str]:
+    """``object.part`` of every code that is new in each draw (``values.is_continuous``)."""
+    continuous: set[str] = set()
+    for c in recipe.constants:  # in order: a constant reads only those before it
+        if is_continuous(c.value, continuous):
+            continuous.add(c.name)
+    out = []
+    for o in recipe.objects:
+        nodes = {"asset": [o.joint] if o.joint is not None else [o.shape, o.appearance],
+                 "shape": [o.shape], "appearance": [o.appearance]}
+        out += [f"{o.name}.{k}" for k, _ in o.code_text
+                if any(n is not None and is_continuous(n, continuous) for n in nodes[k])]
+    return out

@@ -322,3 +322,30 @@ def is_random(node: Any, random_constants: set[str]) -> bool:
     if isinstance(node, VectorCode):
         return is_random(node.items, random_constants)
     raise TypeError(f"not a value node: {node!r}")
+
+
+def is_continuous(node: Any, continuous_constants: set[str]) -> bool:
+    """True when a node draws from a continuum, so that no value is expected twice: a code
+    built on one is new in every draw (baked every time, never served from a cache)."""
+    if isinstance(node, (Fixed, Whole, NamedCode)):
+        return False  # a name, or a whole number from a range: finitely many values
+    if isinstance(node, (Uniform, Box, Blend, Normal)):
+        return is_random(node, set())
+    if isinstance(node, Pick):
+        return any(is_continuous(o, continuous_constants)
+                   for o, p in zip(node.options, node.probabilities, strict=True) if p > 0)
+    if isinstance(node, ConstantRef):
+        return node.name in continuous_constants
+    if isinstance(node, Tuple):
+        return any(is_continuous(item, continuous_constants) for item in node.items)
+    if isinstance(node, (Param, ParamVec)):
+        return is_continuous(node.inner, continuous_constants)
+    if isinstance(node, PriorCode):
+        return True
+    if isinstance(node, MixCode):
+        return any(is_continuous(w, continuous_constants) for w in node.weights)
+    if isinstance(node, ShiftCode):
+        return is_continuous(node.base, continuous_constants) or is_continuous(node.by, continuous_constants)
+    if isinstance(node, VectorCode):
+        return is_continuous(node.items, continuous_constants)
+    raise TypeError(f"not a value node: {node!r}")
