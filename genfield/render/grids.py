@@ -119,11 +119,17 @@ def prepare(grid: FieldGrid) -> RenderGrid:
     if not np.all(np.isfinite(density)) or not np.all(np.isfinite(grid.albedo)):
         raise ValueError("a baked grid holds NaN or infinite values")
     density = np.clip(density, 0.0, SIGMA_MAX).astype(np.float32)
-    gradient = np.stack(np.gradient(density, grid.cell), axis=-1)  # (R, R, R, 3), central differences
-    features = np.concatenate([np.clip(grid.albedo, 0.0, 1.0), gradient], axis=-1).astype(np.float32)
-    # numpy (x, y, z[, c]) "ij" -> torch (c, z, y, x): grid_sample reads (x, y, z) as (W, H, D)
+    albedo = np.clip(grid.albedo, 0.0, 1.0)
+    gradient = np.gradient(density, grid.cell)  # d/dx, d/dy, d/dz (R, R, R), central differences
+    # numpy (x, y, z[, c]) "ij" -> torch (c, z, y, x): grid_sample reads (x, y, z) as (W, H, D);
+    # each channel is written transposed into place (no concatenated copy in between)
+    r = density.shape[0]
+    features = np.empty((6, r, r, r), np.float32)
+    for c in range(3):
+        features[c] = albedo[..., c].transpose(2, 1, 0)
+        features[3 + c] = gradient[c].transpose(2, 1, 0)
     dens_t = torch.from_numpy(np.ascontiguousarray(density.transpose(2, 1, 0)))[None, None]
-    feat_t = torch.from_numpy(np.ascontiguousarray(features.transpose(3, 2, 1, 0)))[None]
+    feat_t = torch.from_numpy(features)[None]
     fine, coarse = cell_states(density)
     return RenderGrid(density=dens_t, features=feat_t, fine=fine, coarse=coarse,
                       deep_cells=deep_radius(density.shape[0]))
