@@ -9,7 +9,7 @@ from _field_toys import tiny_model
 from scipy import ndimage
 
 from genfield.field.bake import (
-    bake_arrays,
+    bake_geometry,
     clean_occupancy,
     lattice_indices,
     upsample,
@@ -76,7 +76,7 @@ def test_bake_points_follow_the_grid_layout(trained):
 
 def test_strides_must_nest():
     with pytest.raises(ValueError, match="divide"):
-        bake_arrays(lambda ijk: (ijk[:, 0], ijk), 17, steps=(4, 3, 1))
+        bake_geometry(lambda ijk: (ijk[:, 0], ijk), 17, steps=(4, 3, 1))
 
 
 def test_cleanup_drops_small_parts_and_keeps_large_ones():
@@ -125,3 +125,45 @@ def test_cell_flags_match_the_closed_cell_definition(resolution):
     want_points = np.einsum("ia,jb,kc,abc->ijk", inside, inside, inside, cells) > 0
     assert np.array_equal(_any_in_cells(flags, layout), want_cells)
     assert np.array_equal(_points_in_cells(cells, layout), want_points)
+
+
+def _forget(model):
+    model._memo.clear()
+    model._seen.clear()
+
+
+def test_a_shape_baked_again_reuses_its_geometry_with_identical_results(trained):
+    model, _ = trained
+    s, a1, a2 = model.codebook.shape[1], model.codebook.appearance[1], model.codebook.appearance[2]
+    _forget(model)
+    alone = model.bake(s, a2, 25)  # nothing in the memo: the whole network
+    assert not model._memo  # a shape baked once is not kept (fresh draws would fill the memo)
+    model.bake(s, a1, 25)
+    assert len(model._memo) == 1  # kept on its second bake, whatever the appearance
+    reused = model.bake(s, a2, 25)  # geometry from the memo, only the colour head runs
+    assert np.array_equal(reused.density, alone.density)
+    assert np.array_equal(reused.albedo, alone.albedo)
+    assert not np.array_equal(reused.albedo, model.bake(s, a1, 25).albedo)
+    with pytest.raises(ValueError):  # shared between grids, so read-only
+        reused.density[0, 0, 0] = 1.0
+    _forget(model)
+
+
+def test_changed_weights_are_never_served_old_geometry(trained):
+    model, _ = trained
+    s, a = model.codebook.shape[0], model.codebook.appearance[0]
+    _forget(model)
+    model.bake(s, a, 17)
+    before = model.bake(s, a, 17)  # now in the memo
+    weight = model.network.trunk[1].weight
+    with torch.no_grad():
+        weight.mul_(1.5)
+    try:
+        changed = model.bake(s, a, 17)
+        _forget(model)
+        assert np.array_equal(changed.density, model.bake(s, a, 17).density)
+        assert not np.array_equal(changed.density, before.density)
+    finally:
+        with torch.no_grad():
+            weight.div_(1.5)
+        _forget(model)

@@ -64,7 +64,8 @@ def test_grid_tables_give_the_network_function_at_grid_points():
     z_s, z_a = torch.randn(1, 5), torch.randn(1, 7)
     z_a[0, :3] *= 20.0  # the own wave: a few cycles per unit, as spectra give
     with torch.no_grad():
-        logit, albedo = net.grid_forward(net.grid_tables(axis, z_s, z_a), ijk, z_a)
+        logit, features = net.grid_geometry(net.trunk_tables(axis, z_s), ijk)
+        albedo = net.grid_albedo(net.colour_tables(axis, z_a), ijk, features, z_a)
         x = axis[ijk][None]  # (1, 4, 3) the grid points themselves
         ref_logit, feature = net.geometry(x, z_s)
         ref_albedo = net.albedo(feature, z_a)

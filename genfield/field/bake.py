@@ -27,8 +27,11 @@ from scipy import ndimage
 
 from genfield.field.grid import box_filter
 
-# grid indices (m, 3) int64 into the R^3 grid -> (logits (m,), albedo (m, 3)), numpy float32
-GridFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
+# grid indices (m, 3) int64 into the R^3 grid -> logits (m,) and the trunk's features there
+# (m, F), numpy float32: what the refinement needs and what colour is computed from
+GeometryFn = Callable[[np.ndarray], tuple[np.ndarray, np.ndarray]]
+# grid indices (m, 3) and their features (m, F) -> albedo (m, 3), numpy float32
+ColourFn = Callable[[np.ndarray, np.ndarray], np.ndarray]
 
 # lattice strides, coarse to fine; each divides the one before. (4, 2, 1) against (4, 1) on
 # prior draws of the quick model: 20-25% less time at 25^3, 33^3 and 49^3, inside sets equal
@@ -118,51 +121,108 @@ def uncertain_cells(logits: np.ndarray, known: np.ndarray, cells: Cells,
     return _any_in_cells(not_in | (not_out << 1), cells) == 3  # one pass for both
 
 
-def bake_arrays(field: GridFn, resolution: int, *,
-                steps: tuple[int, ...] = DEFAULT_STEPS, margin: float = DEFAULT_MARGIN,
-                ) -> tuple[np.ndarray, np.ndarray, BakeStats]:
-    """Logits (R, R, R) and albedo (R, R, R, 3) of a field on the grid of ``grid.grid_points``.
+@dataclass(frozen=True)
+class Level:
+    """The points one lattice level evaluated, with the trunk's features there."""
+
+    lattice: np.ndarray  # (n,) grid indices of the level's lattice along each axis
+    at: np.ndarray  # (m,) int32 flat positions in the (n, n, n) lattice, in evaluation order
+    features: np.ndarray  # (m, F) float32
+
+    @staticmethod
+    def of(lattice: np.ndarray, at: list[np.ndarray], features: list[np.ndarray]) -> Level:
+        if not at:
+            return Level(lattice, np.zeros(0, np.int32), np.zeros((0, 0), np.float32))
+        return Level(lattice, np.concatenate(at), np.concatenate(features))
+
+    def points(self) -> tuple[tuple[np.ndarray, np.ndarray, np.ndarray], np.ndarray]:
+        """Lattice positions (ii, jj, kk) and grid indices (m, 3) of the evaluated points."""
+        n = len(self.lattice)
+        ii, jj, kk = np.unravel_index(self.at, (n, n, n))
+        return (ii, jj, kk), np.stack([self.lattice[ii], self.lattice[jj], self.lattice[kk]], 1)
+
+
+@dataclass(frozen=True)
+class GeometryBake:
+    """What a bake found of one shape: the logits grid, and where the network ran (with its
+    features there, so any appearance is painted on without running the trunk again)."""
+
+    logits: np.ndarray  # (R, R, R) float32
+    levels: tuple[Level, ...]
+    stats: BakeStats
+
+    @property
+    def nbytes(self) -> int:
+        return int(self.logits.nbytes + sum(lv.at.nbytes + lv.features.nbytes for lv in self.levels))
+
+
+def bake_geometry(geometry: GeometryFn, resolution: int, *,
+                  steps: tuple[int, ...] = DEFAULT_STEPS, margin: float = DEFAULT_MARGIN) -> GeometryBake:
+    """Logits (R, R, R) of a field on the grid of ``grid.grid_points``, coarse to fine.
 
     ``steps`` must end with 1 and each must divide the one before; ``(1,)`` is a dense bake.
     Within a level the refinement is traced: once a cell is refined, the points on its faces
     are known exactly, and a neighbour whose known points then disagree is refined too, until
-    no cell is left; so a surface found in one cell is followed across the level.
+    no cell is left; so a surface found in one cell is followed across the level. Which
+    points are evaluated depends on the logits only, so colour can follow (``bake_colour``).
     """
     if steps[-1] != 1 or any(a % b for a, b in zip(steps, steps[1:], strict=False)):
         raise ValueError(f"lattice strides must divide each other and end with 1, got {steps}")
+    at: list[np.ndarray] = []
+    feats: list[np.ndarray] = []
 
-    def evaluate(idx: np.ndarray, todo: np.ndarray, logits: np.ndarray, albedo: np.ndarray) -> int:
-        ii, jj, kk = np.nonzero(todo)
-        if len(ii):
-            lg, alb = field(np.stack([idx[ii], idx[jj], idx[kk]], axis=1))  # grid indices (m, 3)
+    def evaluate(idx: np.ndarray, todo: np.ndarray, logits: np.ndarray) -> int:
+        flat = np.flatnonzero(todo).astype(np.int32)
+        if len(flat):
+            ii, jj, kk = np.unravel_index(flat, todo.shape)
+            lg, features = geometry(np.stack([idx[ii], idx[jj], idx[kk]], axis=1))  # grid indices (m, 3)
             logits[ii, jj, kk] = lg
-            albedo[ii, jj, kk] = alb
-        return len(ii)
+            at.append(flat)
+            feats.append(features)
+        return len(flat)
 
+    levels: list[Level] = []
     prev = lattice_indices(resolution, steps[0])
     n = len(prev)
     logits = np.zeros((n, n, n), np.float32)
-    albedo = np.zeros((n, n, n, 3), np.float32)
     known = np.ones((n, n, n), bool)
-    evaluated, sizes = [evaluate(prev, known, logits, albedo)], [n**3]
+    evaluated, sizes = [evaluate(prev, known, logits)], [n**3]
+    levels.append(Level.of(prev, at, feats))
     for stride in steps[1:]:
+        at, feats = [], []
         idx = lattice_indices(resolution, stride)
         layout = Cells.of(prev, idx)
-        logits, albedo = upsample(logits, prev, idx), upsample(albedo, prev, idx)
+        logits = upsample(logits, prev, idx)
         known = _nested(known, prev, idx)
         done = np.zeros((len(prev) - 1,) * 3, bool)
         count = 0
         cells = uncertain_cells(logits, known, layout, margin)
         while cells.any():
             todo = _points_in_cells(cells, layout) & ~known
-            count += evaluate(idx, todo, logits, albedo)
+            count += evaluate(idx, todo, logits)
             known |= todo
             done |= cells
             cells = uncertain_cells(logits, known, layout, margin) & ~done
         evaluated.append(count)
         sizes.append(len(idx) ** 3)
+        levels.append(Level.of(idx, at, feats))
         prev = idx
-    return logits, albedo, BakeStats(tuple(evaluated), tuple(sizes))
+    return GeometryBake(logits, tuple(levels), BakeStats(tuple(evaluated), tuple(sizes)))
+
+
+def bake_colour(bake: GeometryBake, colour: ColourFn) -> np.ndarray:
+    """Albedo (R, R, R, 3) on the grid of a geometry bake: the colour head at the points the
+    network evaluated (one call a level), trilinear between them as the logits were."""
+    albedo = np.zeros((0, 0, 0, 3), np.float32)
+    prev = None
+    for level in bake.levels:
+        n = len(level.lattice)
+        albedo = np.zeros((n, n, n, 3), np.float32) if prev is None else upsample(albedo, prev, level.lattice)
+        if len(level.at):
+            (ii, jj, kk), ijk = level.points()
+            albedo[ii, jj, kk] = colour(ijk, level.features)
+        prev = level.lattice
+    return albedo
 
 
 def _nested(known: np.ndarray, coarse: np.ndarray, fine: np.ndarray) -> np.ndarray:

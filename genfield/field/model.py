@@ -9,6 +9,8 @@ from __future__ import annotations
 
 import logging
 import os
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -22,7 +24,9 @@ from genfield.field.bake import (
     DEFAULT_MARGIN,
     DEFAULT_STEPS,
     BakeStats,
-    bake_arrays,
+    GeometryBake,
+    bake_colour,
+    bake_geometry,
     clean_occupancy,
 )
 from genfield.field.codebook import CodeBook, codebook_from_contents, codebook_tensors
@@ -34,6 +38,23 @@ from genfield.field.network import FieldNetwork
 log = logging.getLogger(__name__)
 
 CHUNK = 16384  # points per network call: bounded memory, large enough for fast matrix products
+# bound of the memo of shapes' geometry bakes (a 65^3 one holds about 6 MB): a shape baked
+# again with another appearance costs only the colour head. A shape enters on its second bake,
+# so shapes drawn afresh (never baked twice) leave it empty
+GEOMETRY_MEMO_BYTES = 64 << 20
+MEMO_SEEN = 4096  # keys of shapes baked once, remembered for their second bake
+
+
+@dataclass(frozen=True)
+class _Shaped:
+    """One shape's bake, ready for any appearance: geometry and the final density."""
+
+    bake: GeometryBake
+    density: np.ndarray  # (R, R, R) float32, read-only (shared by every grid of the shape)
+
+    @property
+    def nbytes(self) -> int:
+        return self.bake.nbytes + int(self.density.nbytes)
 
 
 def _inside_cube(points: np.ndarray) -> np.ndarray:
@@ -54,6 +75,10 @@ class Model:
     sources: tuple[str, ...]
     metrics: dict[str, Any] = field(default_factory=dict)
     prior_info: dict[str, Any] = field(default_factory=dict)
+    _memo: OrderedDict = field(default_factory=OrderedDict, init=False, repr=False, compare=False)
+    _seen: OrderedDict = field(default_factory=OrderedDict, init=False, repr=False, compare=False)
+    _memo_lock: threading.Lock = field(default_factory=threading.Lock, init=False, repr=False,
+                                       compare=False)
 
     def __post_init__(self) -> None:
         self.network.eval()
@@ -124,29 +149,69 @@ class Model:
     def bake_with_stats(self, shape: np.ndarray, appearance: np.ndarray, resolution: int = 64, *,
                         clean: bool = True, steps: tuple[int, ...] = DEFAULT_STEPS,
                         margin: float = DEFAULT_MARGIN) -> tuple[FieldGrid, BakeStats]:
-        """``bake`` and how many points the network evaluated at each level."""
+        """``bake`` and how many points the network evaluated at each level (for the shape:
+        the same figures when its geometry came from the memo)."""
         if resolution < 2:
             raise ValueError(f"resolution must be >= 2, got {resolution}")
         s = self._code(shape, self.codebook.shape_dim, "shape")
         a = self._code(appearance, self.codebook.appearance_dim, "appearance")
         with torch.inference_mode(), heavy_work():
-            axis = np.linspace(-1.0, 1.0, resolution).astype(np.float32)  # grid.grid_points' axis
-            tables = self.network.grid_tables(torch.from_numpy(axis), s, a)
+            axis = torch.from_numpy(np.linspace(-1.0, 1.0, resolution).astype(np.float32))  # grid_points' axis
+            shaped = self._shaped(s, axis, clean, steps, margin)
+            tables = self.network.colour_tables(axis, a)
 
-            def field(ijk: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-                logits = np.empty(len(ijk), np.float32)
+            def colour(ijk: np.ndarray, features: np.ndarray) -> np.ndarray:
                 albedo = np.empty((len(ijk), 3), np.float32)
                 for c in range(0, len(ijk), CHUNK):
-                    lg, alb = self.network.grid_forward(tables, torch.from_numpy(ijk[c : c + CHUNK]), a)
-                    logits[c : c + CHUNK], albedo[c : c + CHUNK] = lg.numpy(), alb.numpy()
-                return logits, albedo
+                    albedo[c : c + CHUNK] = self.network.grid_albedo(
+                        tables, torch.from_numpy(ijk[c : c + CHUNK]),
+                        torch.from_numpy(features[c : c + CHUNK]), a).numpy()
+                return albedo
 
-            logits, albedo, stats = bake_arrays(field, resolution, steps=steps, margin=margin)
-        occupancy = 1.0 / (1.0 + np.exp(-np.clip(logits, -60.0, 60.0)))
+            albedo = bake_colour(shaped.bake, colour)
+        return FieldGrid(density=shaped.density, albedo=np.clip(albedo, 0.0, 1.0)), shaped.bake.stats
+
+    def _shaped(self, s: torch.Tensor, axis: torch.Tensor, clean: bool, steps: tuple[int, ...],
+                margin: float) -> _Shaped:
+        """The geometry bake of shape code s (1, Ds), from the memo when it is there. The key
+        holds the weights' version counters, so a changed network is never served old grids."""
+        key = (s.numpy().tobytes(), len(axis), clean, tuple(steps), float(margin),
+               tuple((id(p), p._version) for p in self.network.parameters()))
+        with self._memo_lock:
+            hit = self._memo.get(key)
+            if hit is not None:
+                self._memo.move_to_end(key)
+                return hit
+            second = self._seen.pop(hash(key), False)
+            if not second:
+                self._seen[hash(key)] = True
+                if len(self._seen) > MEMO_SEEN:
+                    self._seen.popitem(last=False)
+        tables = self.network.trunk_tables(axis, s)
+
+        def geometry(ijk: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+            logits = np.empty(len(ijk), np.float32)
+            features = np.empty((len(ijk), self.config.network.feature_dim), np.float32)
+            for c in range(0, len(ijk), CHUNK):
+                lg, ft = self.network.grid_geometry(tables, torch.from_numpy(ijk[c : c + CHUNK]))
+                logits[c : c + CHUNK], features[c : c + CHUNK] = lg.numpy(), ft.numpy()
+            return logits, features
+
+        bake = bake_geometry(geometry, len(axis), steps=steps, margin=margin)
+        occupancy = 1.0 / (1.0 + np.exp(-np.clip(bake.logits, -60.0, 60.0)))
         if clean:
             occupancy, _ = clean_occupancy(occupancy, self.config.prior.clean_fraction)
         density = (SIGMA_MAX * occupancy).astype(np.float32)
-        return FieldGrid(density=density, albedo=np.clip(albedo, 0.0, 1.0)), stats
+        density.flags.writeable = False
+        shaped = _Shaped(bake, density)
+        if not second:
+            return shaped
+        with self._memo_lock:
+            self._memo[key] = shaped
+            held = sum(v.nbytes for v in self._memo.values())
+            while held > GEOMETRY_MEMO_BYTES and len(self._memo) > 1:
+                held -= self._memo.popitem(last=False)[1].nbytes
+        return shaped
 
     def bake(self, shape: np.ndarray, appearance: np.ndarray, resolution: int = 64, *,
              clean: bool = True) -> FieldGrid:
