@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 import torch
 
-from genfield.field.grid import SIGMA_MAX, FieldGrid
+from genfield.field.grid import SIGMA_MAX, FieldGrid, grid_points
 from genfield.render.composite import composite, merge
 from genfield.render.grids import SHARPNESS, prepare, reconstruct, sample
 from genfield.render.march import Placed, Samples, box_interval, march_all, transmittance
@@ -188,3 +188,25 @@ def test_skipping_changes_nothing_against_marching_every_step():
     finite = np.isfinite(b.t_surface)
     assert np.array_equal(np.isfinite(a.t_surface), finite)
     assert np.allclose(a.t_surface[finite], b.t_surface[finite], atol=1e-5)
+
+
+def test_a_shared_read_only_density_is_prepared_once_and_a_writeable_one_every_time():
+    # a model hands out one read-only density array per shape: its gradient and cell states
+    # are reused, while the albedo of each grid is its own; a writeable array is never reused
+    from genfield.render.grids import _SHARED
+
+    r = 9
+    pts = grid_points(r)
+    density = (SIGMA_MAX * (np.linalg.norm(pts, axis=-1) < 0.6)).astype(np.float32)
+    density.flags.writeable = False
+    red, blue = np.zeros((r, r, r, 3), np.float32), np.zeros((r, r, r, 3), np.float32)
+    red[..., 0], blue[..., 2] = 0.8, 0.8
+    a, b = prepare(FieldGrid(density, red)), prepare(FieldGrid(density, blue))
+    assert a.density is b.density and id(density) in _SHARED
+    assert torch.equal(a.features[:, 3:], b.features[:, 3:])  # the same gradient
+    assert a.features[0, 0].max() == pytest.approx(0.8) and b.features[0, 0].max() == 0.0
+    fresh = prepare(FieldGrid(density.copy(), red))  # writeable: prepared from scratch
+    assert fresh.density is not a.density and torch.equal(fresh.density, a.density)
+    key = id(density)
+    del a, b, density
+    assert key not in _SHARED  # the entry goes with the array

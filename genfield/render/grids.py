@@ -29,6 +29,7 @@ Per object it keeps
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numpy as np
@@ -113,26 +114,56 @@ def cell_states(density: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return fine.ravel(), coarse
 
 
+@dataclass(frozen=True)
+class _DensityParts:
+    """What ``prepare`` derives from a density grid alone."""
+
+    volume: torch.Tensor  # (1, 1, R, R, R), axes z, y, x
+    gradient: np.ndarray  # (3, R, R, R) d(sigma)/d(x, y, z), axes z, y, x
+    fine: np.ndarray
+    coarse: np.ndarray
+
+
+# density parts of read-only density arrays that own their data (taken as immutable), by the
+# array's id while it lives: a model hands out one such array for every grid of a shape
+# (genfield.field.model), so a shape painted with a new appearance is prepared without
+# computing its gradient and cell states again
+_SHARED: dict[int, _DensityParts] = {}
+
+
+def _density_parts(density: np.ndarray, cell: float) -> _DensityParts:
+    shared = not density.flags.writeable and density.base is None
+    if shared and id(density) in _SHARED:
+        return _SHARED[id(density)]
+    d = np.clip(density, 0.0, SIGMA_MAX).astype(np.float32)
+    r = d.shape[0]
+    gradient = np.empty((3, r, r, r), np.float32)
+    for c, g in enumerate(np.gradient(d, cell)):  # central differences
+        gradient[c] = g.transpose(2, 1, 0)
+    volume = torch.from_numpy(np.ascontiguousarray(d.transpose(2, 1, 0)))[None, None]
+    parts = _DensityParts(volume, gradient, *cell_states(d))
+    if shared:
+        _SHARED[id(density)] = parts
+        weakref.finalize(density, _SHARED.pop, id(density), None)
+    return parts
+
+
 def prepare(grid: FieldGrid) -> RenderGrid:
     """Torch volumes, gradient and skipping grid of a baked FieldGrid."""
     density = np.asarray(grid.density, dtype=np.float32)
     if not np.all(np.isfinite(density)) or not np.all(np.isfinite(grid.albedo)):
         raise ValueError("a baked grid holds NaN or infinite values")
-    density = np.clip(density, 0.0, SIGMA_MAX).astype(np.float32)
-    albedo = np.clip(grid.albedo, 0.0, 1.0)
-    gradient = np.gradient(density, grid.cell)  # d/dx, d/dy, d/dz (R, R, R), central differences
+    parts = _density_parts(density, grid.cell)
     # numpy (x, y, z[, c]) "ij" -> torch (c, z, y, x): grid_sample reads (x, y, z) as (W, H, D);
     # each channel is written transposed into place (no concatenated copy in between)
+    albedo = np.clip(grid.albedo, 0.0, 1.0)
     r = density.shape[0]
     features = np.empty((6, r, r, r), np.float32)
     for c in range(3):
         features[c] = albedo[..., c].transpose(2, 1, 0)
-        features[3 + c] = gradient[c].transpose(2, 1, 0)
-    dens_t = torch.from_numpy(np.ascontiguousarray(density.transpose(2, 1, 0)))[None, None]
-    feat_t = torch.from_numpy(features)[None]
-    fine, coarse = cell_states(density)
-    return RenderGrid(density=dens_t, features=feat_t, fine=fine, coarse=coarse,
-                      deep_cells=deep_radius(density.shape[0]))
+    features[3:] = parts.gradient
+    return RenderGrid(density=parts.volume, features=torch.from_numpy(features)[None],
+                      fine=parts.fine, coarse=parts.coarse, deep_cells=deep_radius(r))
 
 
 def reconstruct(density: np.ndarray) -> np.ndarray:
