@@ -127,15 +127,10 @@ def test_cell_flags_match_the_closed_cell_definition(resolution):
     assert np.array_equal(_points_in_cells(cells, layout), want_points)
 
 
-def _forget(model):
-    model._memo.clear()
-    model._seen.clear()
-
-
 def test_a_shape_baked_again_reuses_its_geometry_with_identical_results(trained):
     model, _ = trained
     s, a1, a2 = model.codebook.shape[1], model.codebook.appearance[1], model.codebook.appearance[2]
-    _forget(model)
+    model.forget_shapes()
     alone = model.bake(s, a2, 25)  # nothing in the memo: the whole network
     assert not model._memo  # a shape baked once is not kept (fresh draws would fill the memo)
     model.bake(s, a1, 25)
@@ -146,13 +141,13 @@ def test_a_shape_baked_again_reuses_its_geometry_with_identical_results(trained)
     assert not np.array_equal(reused.albedo, model.bake(s, a1, 25).albedo)
     with pytest.raises(ValueError):  # shared between grids, so read-only
         reused.density[0, 0, 0] = 1.0
-    _forget(model)
+    model.forget_shapes()
 
 
 def test_changed_weights_are_never_served_old_geometry(trained):
     model, _ = trained
     s, a = model.codebook.shape[0], model.codebook.appearance[0]
-    _forget(model)
+    model.forget_shapes()
     model.bake(s, a, 17)
     before = model.bake(s, a, 17)  # now in the memo
     weight = model.network.trunk[1].weight
@@ -160,10 +155,10 @@ def test_changed_weights_are_never_served_old_geometry(trained):
         weight.mul_(1.5)
     try:
         changed = model.bake(s, a, 17)
-        _forget(model)
+        model.forget_shapes()
         assert np.array_equal(changed.density, model.bake(s, a, 17).density)
         assert not np.array_equal(changed.density, before.density)
     finally:
         with torch.no_grad():
             weight.div_(1.5)
-        _forget(model)
+        model.forget_shapes()

@@ -86,7 +86,11 @@ def _bake(quick: bool) -> list[Figure]:
         pts = grid_points(res).reshape(-1, 3).astype(np.float32)
         times, dense_times, fractions, agree = [], [], [], []
         for s, a, _ in draws:
-            times.append(median_seconds(lambda s=s, a=a, r=res: model.bake(s, a, r), 3))
+            def fresh(s=s, a=a, r=res):
+                model.forget_shapes()  # each repeat a fresh code's bake, not a memoised shape's
+                return model.bake(s, a, r)
+
+            times.append(median_seconds(fresh, 3))
             dense_times.append(median_seconds(lambda s=s, a=a, p=pts: model.query(p, s, a), 1,
                                               warmup=0))
             grid, stats = model.bake_with_stats(s, a, res, clean=False)

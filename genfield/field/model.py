@@ -171,6 +171,12 @@ class Model:
             albedo = bake_colour(shaped.bake, colour)
         return FieldGrid(density=shaped.density, albedo=np.clip(albedo, 0.0, 1.0)), shaped.bake.stats
 
+    def forget_shapes(self) -> None:
+        """Empty the memo of shapes' geometry bakes (the next bake of any shape is a full one)."""
+        with self._memo_lock:
+            self._memo.clear()
+            self._seen.clear()
+
     def _shaped(self, s: torch.Tensor, axis: torch.Tensor, clean: bool, steps: tuple[int, ...],
                 margin: float) -> _Shaped:
         """The geometry bake of shape code s (1, Ds), from the memo when it is there. The key
