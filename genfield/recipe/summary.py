@@ -64,11 +64,13 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
                              if any(is_random(n, own) for n in nodes[k])]
     lines.append("random per image: " + ("; ".join(per_image) or "nothing"))
     lines.append("random per object: " + ("; ".join(per_object + per_object_codes) or "nothing"))
-    afresh = _codes_drawn_afresh(recipe)
-    if afresh:
-        lines.append(f"baked for every object of every image: {', '.join(afresh)} (drawn from a "
-                     "continuum, so never cached; at detail 2 a bake costs several cached images' "
-                     "renders, detail 1 bakes about 4x faster with rougher thin walls)")
+    shapes, colours = _codes_drawn_afresh(recipe)
+    if shapes or colours:
+        parts = [f"the shapes of {', '.join(shapes)}"] * bool(shapes)
+        parts += [f"the appearances of {', '.join(colours)} (on their known shapes: colour only)"] * bool(colours)
+        lines.append(f"baked afresh for every object of every image, never cached: {'; '.join(parts)}"
+                     + (". At detail 2 a new shape costs several cached images' renders; detail 1 "
+                        "bakes about 4x faster, thin walls rougher" if shapes else ""))
     for s in recipe.sweeps:
         parts = ", ".join(f"{name} ({len(vals)} values)" for name, vals in s.params)
         shape = "zipped" if s.zipped else ("grid" if len(s.params) == 2 else "strip")
@@ -77,16 +79,21 @@ def describe(recipe: Recipe, model_note: str = "") -> str:
     return "\n".join(lines)
 
 
-def _codes_drawn_afresh(recipe: Recipe) -> list[str]:
-    """``object.part`` of every code that is new in each draw (``values.is_continuous``)."""
+def _codes_drawn_afresh(recipe: Recipe) -> tuple[list[str], list[str]]:
+    """The objects whose shape is new in each draw, and those whose appearance alone is
+    (``values.is_continuous``)."""
     continuous: set[str] = set()
     for c in recipe.constants:  # in order: a constant reads only those before it
         if is_continuous(c.value, continuous):
             continuous.add(c.name)
-    out = []
+
+    def afresh(node) -> bool:
+        return node is not None and is_continuous(node, continuous)
+
+    shapes, colours = [], []
     for o in recipe.objects:
-        nodes = {"asset": [o.joint] if o.joint is not None else [o.shape, o.appearance],
-                 "shape": [o.shape], "appearance": [o.appearance]}
-        out += [f"{o.name}.{k}" for k, _ in o.code_text
-                if any(n is not None and is_continuous(n, continuous) for n in nodes[k])]
-    return out
+        if afresh(o.joint if o.joint is not None else o.shape):
+            shapes.append(o.name)
+        elif o.joint is None and afresh(o.appearance):
+            colours.append(o.name)
+    return shapes, colours
