@@ -55,14 +55,21 @@ backdrop {
 }}
 """ for family, index in ASSETS)
 
-# Peak memory of one whole run in a fresh process (ru_maxrss is KiB on Linux).
+# Peak memory of one whole run in a fresh process, KiB: the kernel's high-water mark of this
+# process image (VmHWM in /proc/self/status, Linux's proc(5)). Not ru_maxrss: Linux keeps it
+# across fork and exec, so a child of a large bench process reported the parent's size
+# (599 MiB in a full bench run against 323 MiB alone).
 _RSS_SCRIPT = """
 import resource, sys
 from genfield.dataset.benchmarks import bench_job
 from genfield.dataset.writer import write_dataset
 if __name__ == "__main__":
     write_dataset(sys.argv[2], bench_job(sys.argv[1], int(sys.argv[3])))
-    print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
+    try:
+        with open("/proc/self/status") as f:
+            print(next(int(line.split()[1]) for line in f if line.startswith("VmHWM:")))
+    except OSError:  # not Linux: ru_maxrss (KiB on Linux, bytes on macOS)
+        print(resource.getrusage(resource.RUSAGE_SELF).ru_maxrss)
 """
 
 
