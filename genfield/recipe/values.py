@@ -290,6 +290,21 @@ def refs(node: Any) -> set[str]:
 
 def is_random(node: Any, random_constants: set[str]) -> bool:
     """True when a node can draw more than one value."""
+    return _varies(node, random_constants, continuum=False)
+
+
+def is_continuous(node: Any, continuous_constants: set[str]) -> bool:
+    """True when a node draws from a continuum, so that no value is expected twice: a code
+    built on one is new in every draw (baked every time, never served from a cache)."""
+    return _varies(node, continuous_constants, continuum=True)
+
+
+def _varies(node: Any, varying: set[str], *, continuum: bool) -> bool:
+    """``is_random``, or with ``continuum`` ``is_continuous``: the two differ only where a
+    node has finitely many values (whole numbers, picks among fixed options, names)."""
+    def again(n: Any) -> bool:
+        return _varies(n, varying, continuum=continuum)
+
     if isinstance(node, Fixed):
         return False
     if isinstance(node, Uniform):
@@ -299,53 +314,26 @@ def is_random(node: Any, random_constants: set[str]) -> bool:
     if isinstance(node, Blend):
         return node.lo != node.hi
     if isinstance(node, Whole):
-        return node.hi > node.lo
+        return not continuum and node.hi > node.lo
     if isinstance(node, Normal):
         return node.sd > 0 and (node.lo is None or node.hi > node.lo)  # type: ignore[operator]
     if isinstance(node, Pick):
         live = [o for o, p in zip(node.options, node.probabilities, strict=True) if p > 0]
-        return len(set(map(repr, live))) > 1 or any(is_random(o, random_constants) for o in live)
+        return (not continuum and len(set(map(repr, live))) > 1) or any(again(o) for o in live)
     if isinstance(node, ConstantRef):
-        return node.name in random_constants
+        return node.name in varying
     if isinstance(node, Tuple):
-        return any(is_random(item, random_constants) for item in node.items)
+        return any(again(item) for item in node.items)
     if isinstance(node, (Param, ParamVec)):
-        return is_random(node.inner, random_constants)
+        return again(node.inner)
     if isinstance(node, PriorCode):
         return True
     if isinstance(node, NamedCode):
-        return is_random(node.name, random_constants)
+        return not continuum and again(node.name)  # a name: finitely many values
     if isinstance(node, MixCode):
-        return any(is_random(w, random_constants) for w in node.weights)
+        return any(again(w) for w in node.weights)
     if isinstance(node, ShiftCode):
-        return is_random(node.base, random_constants) or is_random(node.by, random_constants)
+        return again(node.base) or again(node.by)
     if isinstance(node, VectorCode):
-        return is_random(node.items, random_constants)
-    raise TypeError(f"not a value node: {node!r}")
-
-
-def is_continuous(node: Any, continuous_constants: set[str]) -> bool:
-    """True when a node draws from a continuum, so that no value is expected twice: a code
-    built on one is new in every draw (baked every time, never served from a cache)."""
-    if isinstance(node, (Fixed, Whole, NamedCode)):
-        return False  # a name, or a whole number from a range: finitely many values
-    if isinstance(node, (Uniform, Box, Blend, Normal)):
-        return is_random(node, set())
-    if isinstance(node, Pick):
-        return any(is_continuous(o, continuous_constants)
-                   for o, p in zip(node.options, node.probabilities, strict=True) if p > 0)
-    if isinstance(node, ConstantRef):
-        return node.name in continuous_constants
-    if isinstance(node, Tuple):
-        return any(is_continuous(item, continuous_constants) for item in node.items)
-    if isinstance(node, (Param, ParamVec)):
-        return is_continuous(node.inner, continuous_constants)
-    if isinstance(node, PriorCode):
-        return True
-    if isinstance(node, MixCode):
-        return any(is_continuous(w, continuous_constants) for w in node.weights)
-    if isinstance(node, ShiftCode):
-        return is_continuous(node.base, continuous_constants) or is_continuous(node.by, continuous_constants)
-    if isinstance(node, VectorCode):
-        return is_continuous(node.items, continuous_constants)
+        return again(node.items)
     raise TypeError(f"not a value node: {node!r}")
