@@ -213,14 +213,17 @@ def bake_geometry(geometry: GeometryFn, resolution: int, *,
 def bake_colour(bake: GeometryBake, colour: ColourFn) -> np.ndarray:
     """Albedo (R, R, R, 3) on the grid of a geometry bake: the colour head at the points the
     network evaluated (one call a level), trilinear between them as the logits were."""
-    albedo = np.zeros((0, 0, 0, 3), np.float32)
-    prev = None
-    for level in bake.levels:
-        n = len(level.lattice)
-        albedo = np.zeros((n, n, n, 3), np.float32) if prev is None else upsample(albedo, prev, level.lattice)
+    def paint(albedo: np.ndarray, level: Level) -> np.ndarray:
         if len(level.at):
             (ii, jj, kk), ijk = level.points()
             albedo[ii, jj, kk] = colour(ijk, level.features)
+        return albedo
+
+    first, *finer = bake.levels  # the first level evaluated every point of its lattice
+    albedo = paint(np.zeros((len(first.lattice),) * 3 + (3,), np.float32), first)
+    prev = first.lattice
+    for level in finer:
+        albedo = paint(upsample(albedo, prev, level.lattice), level)
         prev = level.lattice
     return albedo
 

@@ -190,7 +190,7 @@ class Model:
                 return hit
             second = self._seen.pop(hash(key), False)
             if not second:
-                self._seen[hash(key)] = True
+                self._seen[hash(key)] = True  # only a hash: the memo itself holds whole keys
                 if len(self._seen) > MEMO_SEEN:
                     self._seen.popitem(last=False)
         tables = self.network.trunk_tables(axis, s)
